@@ -1,0 +1,25 @@
+"""gapwake: FDTD simulation of moving sources beside dispersive, lossy dielectrics.
+
+The import package is ``fdtd``.  Data flows one way:
+scenario -> :class:`Model` -> :class:`Solver` -> recorders -> analysis -> results.
+"""
+
+from ._version import __version__
+from .boundaries import CPML, PEC, Periodic
+from .errors import (GapwakeError, GeometryError, InstabilityError, ParameterError, ShapeError,
+                     StabilityError)
+from .geometry import Everywhere, HalfSpace, Polygon, Rectangle, Slab
+from .grid import Grid
+from .materials import VACUUM, DrudePole, LorentzPole, Material, lorentz_material
+from .model import Model
+from .solver import Solver
+from .sources import ContinuousWave, GaussianPulse, PrescribedCurrent, line_current
+from .units import UnitSystem
+
+__all__ = [
+    "__version__", "CPML", "PEC", "Periodic", "GapwakeError", "GeometryError", "InstabilityError",
+    "ParameterError", "ShapeError", "StabilityError", "Everywhere", "HalfSpace", "Polygon",
+    "Rectangle", "Slab", "Grid", "VACUUM", "DrudePole", "LorentzPole", "Material",
+    "lorentz_material", "Model", "Solver", "ContinuousWave", "GaussianPulse", "PrescribedCurrent",
+    "line_current", "UnitSystem",
+]

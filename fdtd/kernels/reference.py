@@ -1,0 +1,79 @@
+"""Readable NumPy twins of the compiled steppers.
+
+They perform exactly the update of :mod:`.yee1d`, :mod:`.yee_te` and
+:mod:`.yee_tm`, written with whole-array operations and full-size CPML
+auxiliary arrays, so that the tests can check the compiled kernels
+against them and a reader can see what the kernels do without the
+row-fusion and segment bookkeeping.  Not for production runs.
+
+``state`` is a dict of field arrays and ``P``/``Po`` dicts per E component;
+``cell`` dicts give per-node coefficient arrays built from the mixture maps
+(``inv_eps`` (shape of the grid) and ``c1, c2, c3`` (ns, *shape)).
+``prof`` is a list of :class:`fdtd.boundaries.AxisProfile` (with dt folded
+in by the caller as in the kernels: ``ck``, ``b``, ``c`` keys per node type).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+
+def _diff_fwd(a, axis):
+    """a[k+1] - a[k] with wrap (forward difference onto the half node)."""
+    return np.roll(a, -1, axis=axis) - a
+
+
+def _diff_bwd(a, axis):
+    """a[k] - a[k-1] with wrap (backward difference onto the integer node)."""
+    return a - np.roll(a, 1, axis=axis)
+
+
+def _stretch(diff, axis, prof, node, psi_key, aux, ndim):
+    """(1/kappa) diff * dt/Delta + dt*psi, updating the full-size psi array."""
+    shape = [1] * ndim
+    shape[axis] = -1
+    ck = prof[f"ck_{node}"].reshape(shape)
+    b = prof[f"b_{node}"].reshape(shape)
+    c = prof[f"c_{node}"].reshape(shape)
+    psi = aux.setdefault(psi_key, np.zeros_like(diff))
+    psi[...] = b * psi + c * diff
+    return ck * diff + psi
+
+
+def _update_e(E, P, Po, cell, curl):
+    ds = np.zeros_like(E)
+    for s in range(P.shape[0]):
+        pnew = cell["c1"][s] * P[s] + cell["c2"][s] * Po[s] + cell["c3"][s] * E
+        ds += pnew - P[s]
+        Po[s] = P[s]
+        P[s] = pnew
+    E += cell["inv_eps"] * (curl - ds)
+
+
+def step_1d_numpy(state, cells, prof, aux):
+    Ey, Hz = state["Ey"], state["Hz"]
+    Hz -= _stretch(_diff_fwd(Ey, 0), 0, prof[0], "half", "hz_x", aux, 1)
+    curl = -_stretch(_diff_bwd(Hz, 0), 0, prof[0], "int", "ey_x", aux, 1)
+    _update_e(Ey, state["P"]["Ey"], state["Po"]["Ey"], cells["Ey"], curl)
+
+
+def step_te_numpy(state, cells, prof, aux):
+    Ex, Ey, Hz = state["Ex"], state["Ey"], state["Hz"]
+    Hz -= (_stretch(_diff_fwd(Ey, 0), 0, prof[0], "half", "hz_x", aux, 2)
+           - _stretch(_diff_fwd(Ex, 1), 1, prof[1], "half", "hz_y", aux, 2))
+    curl_x = _stretch(_diff_bwd(Hz, 1), 1, prof[1], "int", "ex_y", aux, 2)
+    curl_y = -_stretch(_diff_bwd(Hz, 0), 0, prof[0], "int", "ey_x", aux, 2)
+    _update_e(Ex, state["P"]["Ex"], state["Po"]["Ex"], cells["Ex"], curl_x)
+    _update_e(Ey, state["P"]["Ey"], state["Po"]["Ey"], cells["Ey"], curl_y)
+
+
+def step_tm_numpy(state, cells, prof, aux):
+    Ez, Hx, Hy = state["Ez"], state["Hx"], state["Hy"]
+    Hx -= _stretch(_diff_fwd(Ez, 1), 1, prof[1], "half", "hx_y", aux, 2)
+    Hy += _stretch(_diff_fwd(Ez, 0), 0, prof[0], "half", "hy_x", aux, 2)
+    curl = (_stretch(_diff_bwd(Hy, 0), 0, prof[0], "int", "ez_x", aux, 2)
+            - _stretch(_diff_bwd(Hx, 1), 1, prof[1], "int", "ez_y", aux, 2))
+    _update_e(Ez, state["P"]["Ez"], state["Po"]["Ez"], cells["Ez"], curl)
+
+
+STEPPERS = {"1d": step_1d_numpy, "te": step_te_numpy, "tm": step_tm_numpy}
