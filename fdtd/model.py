@@ -245,11 +245,14 @@ class Model:
         """Largest stable time step (normalized), see :mod:`fdtd.stability`."""
         return max_stable_dt(self.grid.spacing, self.media_present())
 
-    def resolve_dt(self, dt: float | None = None, courant: float | None = None) -> float:
+    def resolve_dt(self, dt: float | None = None, courant: float | None = None,
+                   allow_unstable: bool = False) -> float:
         """Check or choose the time step.
 
         Give ``dt`` (refused above the stability limit) or ``courant``, the
         fraction of the limit to use (0 < courant <= 1); default 0.95.
+        ``allow_unstable=True`` accepts a ``dt`` above the limit with a
+        warning (for studying the instability itself).
         """
         limit = self.max_stable_dt()
         if dt is not None and courant is not None:
@@ -259,7 +262,12 @@ class Model:
                 "courant (fraction of the stability limit)", courant, 0.0, 1.0, lo_open=True)
             return frac * limit
         dt = _checks.positive("dt", dt)
-        if dt > limit:
+        if dt > limit and allow_unstable:
+            import warnings
+
+            warnings.warn(f"dt = {dt!r} is above the stability limit {limit!r}: expect growth",
+                          stacklevel=3)
+        elif dt > limit:
             nu = courant_number(dt, self.grid.spacing)
             nu_max = courant_number(limit, self.grid.spacing)
             raise StabilityError(

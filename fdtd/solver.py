@@ -69,17 +69,20 @@ class Solver:
         Cells between the absorbing layers and the ledger box.
     check_every : int
         Steps between guard-rail checks (non-finite fields, runaway energy).
+    allow_unstable_dt : bool
+        Accept a ``dt`` above the stability limit (with a warning); the guard
+        rails then stop the run when it blows up.
     """
 
     def __init__(self, model: Model, dt: float | None = None, courant: float | None = None,
                  sources=(), threads: int | None = None, ledger: bool = True,
-                 ledger_margin: int = 1, check_every: int = 50):
+                 ledger_margin: int = 1, check_every: int = 50, allow_unstable_dt: bool = False):
         if not isinstance(model, Model):
             raise ParameterError(f"model = {model!r}: expected an fdtd.Model")
         self.model = model
         g = model.grid
         self.grid = g
-        self.dt = model.resolve_dt(dt, courant)
+        self.dt = model.resolve_dt(dt, courant, allow_unstable=allow_unstable_dt)
         self.courant_number = courant_number(self.dt, g.spacing)
         self.tables = model.kernel_tables(self.dt)
         self.profiles = model.profiles(self.dt)

@@ -43,9 +43,10 @@ def _stretch(diff, axis, prof, node, psi_key, aux, ndim):
 def _update_e(E, P, Po, cell, curl):
     ds = np.zeros_like(E)
     for s in range(P.shape[0]):
-        pnew = cell["c1"][s] * P[s] + cell["c2"][s] * Po[s] + cell["c3"][s] * E
+        on = cell["active"][s]
+        pnew = np.where(on, cell["c1"][s] * P[s] + cell["c2"][s] * Po[s] + cell["c3"][s] * E, P[s])
         ds += pnew - P[s]
-        Po[s] = P[s]
+        Po[s] = np.where(on, P[s], Po[s])
         P[s] = pnew
     E += cell["inv_eps"] * (curl - ds)
 
@@ -77,3 +78,44 @@ def step_tm_numpy(state, cells, prof, aux):
 
 
 STEPPERS = {"1d": step_1d_numpy, "te": step_te_numpy, "tm": step_tm_numpy}
+
+
+def twin_inputs(solver):
+    """Per-node coefficient arrays and profile dicts for the twins, from a Solver."""
+    model = solver.model
+    t = solver.tables
+    g = model.grid
+    cells = {}
+    ns = max(model.max_poles, 1)
+    for c in g.e_components:
+        mix = model.mix_maps[c]
+        cells[c] = {"inv_eps": t["inv_eps"][mix],
+                    "c1": np.stack([t["c1"][mix, s] for s in range(ns)]),
+                    "c2": np.stack([t["c2"][mix, s] for s in range(ns)]),
+                    "c3": np.stack([t["c3"][mix, s] for s in range(ns)]),
+                    "active": np.stack([t["n_poles"][mix] > s for s in range(ns)])}
+    prof = []
+    for a, p in enumerate(solver.profiles):
+        d = g.spacing[a]
+        dt = solver.dt
+        prof.append({"ck_int": dt / d * p.inv_kappa_int, "ck_half": dt / d * p.inv_kappa_half,
+                     "b_int": p.b_int, "c_int": dt * p.c_int,
+                     "b_half": p.b_half, "c_half": dt * p.c_half})
+    return cells, prof
+
+
+def twin_state(solver):
+    """A deep copy of the solver's fields and polarization in the twins' layout."""
+    g = solver.model.grid
+    st = {c: solver.fields[c].copy() for c in solver.fields}
+    st["P"], st["Po"] = {}, {}
+    ns = max(solver.model.max_poles, 1)
+    for c in g.e_components:
+        P, Po = solver.polarization[c]
+        if solver.model.max_poles:
+            st["P"][c] = P.reshape((ns,) + g.shape).copy()
+            st["Po"][c] = Po.reshape((ns,) + g.shape).copy()
+        else:
+            st["P"][c] = np.zeros((1,) + g.shape)
+            st["Po"][c] = np.zeros((1,) + g.shape)
+    return st

@@ -1,0 +1,70 @@
+"""The energy ledger closes: stored energy change = source work - bath heat - outflow.
+
+The identity is exact for the discrete scheme (derivation in DEVELOPERS.md, "Energy
+ledger"), so the residual is at round-off; the issue asks for 1e-3.
+"""
+
+import numpy as np
+import pytest
+
+import fdtd as f
+
+LOSSY = f.Material(1.4, (f.LorentzPole(2.0, 3.0, 0.4),), "lossy-lorentz")
+
+
+@pytest.mark.parametrize("pol,comp", [("1d", "Ey"), ("te", "Ey"), ("te", "Ex"), ("tm", "Ez")])
+def test_pulse_through_lossy_slab_into_absorbers(pol, comp):
+    if pol == "1d":
+        g = f.Grid((300,), (0.05,), "1d")
+        regions = [(f.Slab("x", 8.0, 10.0), LOSSY)]
+        pos = (4.0,)
+        steps = 1500
+    else:
+        g = f.Grid((90, 80), (0.1, 0.1), pol)
+        regions = [(f.HalfSpace("y", below=3.0), LOSSY)]
+        pos = (4.5, 5.0)
+        steps = 900
+    model = f.Model(g, regions, edges=f.CPML(10))
+    s = f.Solver(model, courant=0.9)
+    s.add_source(f.line_current(s, comp, pos, 1.0, f.GaussianPulse(1.5, 0.25, derivative=True)))
+    s.run(steps=steps, ledger_every=100)
+    led = s.ledger.summary()
+    assert abs(led["relative_residual"]) < 1e-3          # the issue's requirement
+    assert abs(led["relative_residual"]) < 1e-11         # what the exact identity gives
+    # every channel is really exercised
+    assert led["bath_heat"] > 0.05 * led["source_work"]
+    assert led["outflow"] > 0.05 * led["source_work"]
+    assert led["stored_end"] < 1e-3 * led["source_work"]
+    # and the ledger holds at every intermediate sample, not only at the ends
+    a = s.ledger.samples[0]
+    for b in s.ledger.samples[1:]:
+        bal = (b.stored - a.stored) - (b.source_work - a.source_work) + (b.bath.sum() - a.bath.sum()) \
+            + (b.outflow - a.outflow)
+        assert abs(bal) < 1e-11 * led["source_work"]
+
+
+def test_drude_and_lorentz_together_per_pole_bath():
+    metal = f.Material(1.0, (f.DrudePole(4.0, 0.8),), "metal")
+    g = f.Grid((80, 70), (0.1, 0.1), "te")
+    model = f.Model(g, [(f.HalfSpace("y", below=2.5), LOSSY), (f.Rectangle(2.0, 4.0, 4.0, 5.0), metal)],
+                    edges=f.CPML(10))
+    s = f.Solver(model, courant=0.9)
+    s.add_source(f.line_current(s, "Ex", (5.0, 3.5), 1.0, f.GaussianPulse(1.5, 0.25, derivative=True)))
+    s.run(steps=700, ledger_every=100)
+    bath = s.ledger.samples[-1].bath
+    assert model.pole_labels == ["lossy-lorentz[0]", "metal[0]"]
+    assert np.all(bath > 0)
+    assert abs(s.ledger.residual()) < 1e-11
+
+
+def test_lossless_closed_cavity_conserves_stored_energy(rng):
+    lossless = f.Material(1.2, (f.LorentzPole(1.5, 2.5, 0.0), f.DrudePole(1.0, 0.0)), "lossless")
+    g = f.Grid((40, 36), (0.1, 0.1), "tm")
+    model = f.Model(g, [(f.Rectangle(1.0, 3.0, 1.0, 2.5), lossless)], edges=f.PEC())
+    s = f.Solver(model, courant=0.95, ledger_margin=0)
+    s.fields["Ez"][5:-5, 5:-5] = rng.standard_normal((30, 26))
+    s.fields["Hx"][...] = rng.standard_normal(g.shape)
+    s.run(steps=3000, ledger_every=500)
+    stored = np.array([x.stored for x in s.ledger.samples])
+    flux = np.array([x.outflow for x in s.ledger.samples])
+    np.testing.assert_allclose(stored + flux, stored[0], rtol=1e-12)
