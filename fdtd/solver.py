@@ -147,6 +147,7 @@ class Solver:
         self.source_work = 0.0      # net work done on the field by sources
         self._energy0: float | None = None
         self.stop_reason = ""
+        self.observers: list = []   # objects with before_step(solver) / after_step(solver, injections)
 
     # ------------------------------------------------------------------
     @property
@@ -242,6 +243,8 @@ class Solver:
                         inj.append((comp, flat, np.asarray(J, dtype=float),
                                     self.fields[comp].reshape(-1)[flat]))
             flux_before = self.ledger.flux_gather() if self.ledger is not None else None
+            for obs in self.observers:
+                obs.before_step(self)
             self._kernel()
             work = 0.0
             for comp, flat, J, _e0 in inj:
@@ -252,6 +255,8 @@ class Solver:
                 work -= dt * float(np.dot(J, 0.5 * (e0 + e1))) * dV
             self.source_work += work
             self.injected_abs += abs(work)
+            for obs in self.observers:
+                obs.after_step(self, inj)
             if self.ledger is not None:
                 self.ledger.source_work += work
                 self.ledger.flux_accumulate(flux_before)
