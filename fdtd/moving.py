@@ -91,19 +91,44 @@ class _MovingSource(Source):
             hi = g.shape[a] - max(nhi, 1) - self.shape.half_support - 1.0
             self.bounds.append((lo, hi))
         self._check_inside(0.0)
-        # speed checks over the planned span (the run may extend it; steps re-check position)
-        span = horizon if horizon is not None else 200.0 * solver.dt
-        vmax = self.worldline.max_velocity_components(0.0, span)
+        self.speed_limits = np.array([numerical_phase_velocity_limit(solver.dt, g.spacing[a], self.shape)
+                                      for a in range(g.dims)])
+        self._warned = False
+        # speed checks: the whole course of a uniform world line, the first steps of
+        # others (then every step, see _check_speed)
+        if hasattr(self.worldline, "velocity_vector"):
+            vmax = np.abs(np.asarray(self.worldline.velocity_vector, dtype=float))
+        else:
+            span = horizon if horizon is not None else 200.0 * solver.dt
+            vmax = self.worldline.max_velocity_components(0.0, span)
+        self._warn_if_fast(vmax, 3)
+
+    def _warn_if_fast(self, vabs: np.ndarray, stacklevel: int) -> None:
+        speed = float(np.sqrt(np.sum(vabs**2)))
+        if speed >= 1.0:
+            raise ParameterError(
+                f"source speed |v| = {speed!r} c is not allowed: expected |v| < 1 (the speed of light)")
+        if self._warned:
+            return
+        g = self.grid
         for a in range(g.dims):
-            lim = numerical_phase_velocity_limit(solver.dt, g.spacing[a], self.shape)
-            if vmax[a] > lim:
+            lim = self.speed_limits[a]
+            if vabs[a] > lim:
+                self._warned = True
                 warnings.warn(
-                    f"source speed along {'xy'[a]} reaches {vmax[a]:.4g} c, above the grid's "
+                    f"source speed along {'xy'[a]} reaches {vabs[a]:.4g} c, above the grid's "
                     f"numerical vacuum phase velocity {lim:.4g} c at the wavenumbers this source "
                     f"excites (cell d{'xy'[a]} = {g.spacing[a]:.4g}, Courant number "
-                    f"{solver.courant_number:.4g}, shape order {self.shape.order} x{self.shape.scale}): "
+                    f"{self.solver.courant_number:.4g}, shape order {self.shape.order} x{self.shape.scale}): "
                     "expect numerical Cherenkov radiation; use finer cells, a wider shape or a "
-                    f"slower source (speed limit {lim:.4g} c)", NumericalCherenkovWarning, stacklevel=3)
+                    f"slower source (speed limit {lim:.4g} c)", NumericalCherenkovWarning,
+                    stacklevel=stacklevel)
+                return
+
+    def _check_speed(self, t: float) -> None:
+        if hasattr(self.worldline, "velocity_vector"):
+            return      # checked once at bind
+        self._warn_if_fast(np.abs(self.worldline.velocity(t)), 5)
 
     def cell_position(self, t: float) -> np.ndarray:
         """Position in cells from storage index 0 of the integer nodes."""
@@ -158,7 +183,7 @@ class MovingCharge(_MovingSource):
         the k_x = 0 part; it is divergence-free, so Gauss's law is untouched.
     """
 
-    def __init__(self, charge: float, worldline: WorldLine, shape: Shape = Shape(2, 1),
+    def __init__(self, charge: float, worldline: WorldLine, shape: Shape = Shape(3, 2),
                  cancel_row_current: bool = True):
         super().__init__(worldline, shape)
         self.charge = _checks.finite_number("charge", charge)
@@ -178,6 +203,7 @@ class MovingCharge(_MovingSource):
         X0 = self.cell_position(t0)
         X1 = self.cell_position(t1)
         self._check_inside(t1)
+        self._check_speed(t_half)
         i0, j0, cx, cy = deposit.esirkepov_te(X0[0], X0[1], X1[0], X1[1], self.shape.order,
                                               self.shape.scale)
         dx, dy = self.grid.spacing
@@ -229,7 +255,7 @@ class MovingDipole(_MovingSource):
     """
 
     def __init__(self, moment: float, omega0: float, worldline: WorldLine, axis: str = "y",
-                 phase: float = 0.0, ramp: float = 0.0, shape: Shape = Shape(3, 1)):
+                 phase: float = 0.0, ramp: float = 0.0, shape: Shape = Shape(3, 2)):
         super().__init__(worldline, shape)
         self.moment = _checks.finite_number("dipole moment", moment)
         self.omega0 = _checks.positive("dipole omega0", omega0)
@@ -275,6 +301,7 @@ class MovingDipole(_MovingSource):
         dt = self.dt
         ts = (t_half - 0.5 * dt, t_half + 0.5 * dt)
         self._check_inside(ts[1])
+        self._check_speed(t_half)
         X = np.array([self.cell_position(t) for t in ts])
         p = np.array([self.lab_moment(t) for t in ts])
         g = self.grid

@@ -1,0 +1,52 @@
+"""Ready-made set-ups shared by the tests, the validation scripts and the scenario layer.
+
+* :func:`comoving_cell` -- a cell periodic along the motion (x) with absorbing
+  layers across it: the steady emission of a uniformly moving source, equivalent
+  to an infinite row of sources spaced by the cell length (k_x = 2 pi m / L);
+* :func:`commensurate_dt` -- a stable time step that divides a given period
+  exactly (transit time L/v, or pi/Omega), so that demodulation windows hold
+  whole periods.
+"""
+
+from __future__ import annotations
+
+import math
+
+from . import _checks
+from .boundaries import CPML, Periodic
+from .errors import ParameterError
+from .grid import Grid
+from .materials import VACUUM, Material
+from .model import Model
+
+
+def comoving_cell(length: float, half_height: float, cell: float, polarization: str = "te",
+                  background: Material = VACUUM, regions=(), absorber: float = 1.0,
+                  absorber_min_cells: int = 10, y_center: float = 0.0, **model_kw) -> Model:
+    """Periodic-x cell of ``length`` with interior ``|y - y_center| <= half_height``.
+
+    The absorbing layers have physical thickness ``absorber`` (normalized
+    length; at least ``absorber_min_cells`` cells), so that they stay as thick
+    in wavelengths when the cell is refined.  Cell edges sit on integer nodes at
+    x = 0 and y = y_center.
+    """
+    length = _checks.positive("cell length", length)
+    half_height = _checks.positive("cell half_height", half_height)
+    cell = _checks.positive("cell size", cell)
+    nx = int(round(length / cell))
+    if abs(nx * cell - length) > 1e-9 * length:
+        raise ParameterError(
+            f"cell length = {length!r} is not a whole number of cells of size {cell!r}")
+    npml = max(int(round(absorber / cell)), absorber_min_cells)
+    nyi = int(round(half_height / cell))
+    ny = 2 * nyi + 2 * npml
+    g = Grid((nx, ny), (cell, cell), polarization, origin=(0.0, y_center - (nyi + npml) * cell))
+    return Model(g, regions, background=background, edges=[Periodic(), CPML(npml)], **model_kw)
+
+
+def commensurate_dt(model: Model, period: float, courant: float = 0.95) -> float:
+    """Largest dt <= courant * (stability limit) with period/dt an integer."""
+    period = _checks.positive("period", period)
+    limit = courant * model.max_stable_dt()
+    n = math.ceil(period / limit - 1e-12)
+    return period / n
