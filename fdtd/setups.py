@@ -50,3 +50,36 @@ def commensurate_dt(model: Model, period: float, courant: float = 0.95) -> float
     limit = courant * model.max_stable_dt()
     n = math.ceil(period / limit - 1e-12)
     return period / n
+
+
+def charge_in_comoving_cell(medium: Material, speed: float, length: float, cell: float,
+                            half_height: float = 2.0, shape=None, ramp: float = 2.0,
+                            settle: float = 10.0, transits: int = 10, charge: float = 1.0,
+                            absorber: float = 1.2, regions=(), height: float = 0.0):
+    """Steady Cherenkov emission of a line charge in a co-moving periodic cell (TE_z).
+
+    The charge starts at rest with its electrostatic field, reaches ``speed``
+    along +x after a smooth ``ramp``, and the Doppler-resolved work is recorded
+    from ``ramp + settle`` over ``transits`` whole transit times L/v with a Hann
+    taper.  Returns ``(spectrum, solver)``; ``spectrum`` is a
+    :class:`fdtd.spectral.DopplerSpectrum` (one entry per harmonic k_m > 0).
+    """
+    from .electrostatics import electrostatic_start
+    from .moving import MovingCharge
+    from .shapes import Shape
+    from .spectral import DopplerWorkRecorder
+    from .solver import Solver
+    from .worldlines import UniformMotion
+
+    model = comoving_cell(length, half_height, cell, "te", background=medium, regions=regions,
+                          absorber=absorber)
+    transit = length / speed
+    solver = Solver(model, dt=commensurate_dt(model, transit))
+    q = MovingCharge(charge, UniformMotion((0.0, height), (speed, 0.0), ramp=ramp),
+                     shape if shape is not None else Shape(3, 2))
+    solver.add_source(q)
+    electrostatic_start(solver, [q])
+    t0 = ramp + settle
+    rec = DopplerWorkRecorder(solver, q, speed, 0.0, start=t0, duration=transits * transit)
+    solver.run(until=t0 + transits * transit)
+    return rec.result(), solver
