@@ -12,6 +12,8 @@ from __future__ import annotations
 
 import math
 
+import numpy as np
+
 from . import _checks
 from .boundaries import CPML, Periodic
 from .errors import ParameterError
@@ -22,7 +24,8 @@ from .model import Model
 
 def comoving_cell(length: float, half_height: float, cell: float, polarization: str = "te",
                   background: Material = VACUUM, regions=(), absorber: float = 1.0,
-                  absorber_min_cells: int = 10, y_center: float = 0.0, **model_kw) -> Model:
+                  absorber_min_cells: int = 10, y_center: float = 0.0, absorber_params=None,
+                  **model_kw) -> Model:
     """Periodic-x cell of ``length`` with interior ``|y - y_center| <= half_height``.
 
     The absorbing layers have physical thickness ``absorber`` (normalized
@@ -41,7 +44,8 @@ def comoving_cell(length: float, half_height: float, cell: float, polarization: 
     nyi = int(round(half_height / cell))
     ny = 2 * nyi + 2 * npml
     g = Grid((nx, ny), (cell, cell), polarization, origin=(0.0, y_center - (nyi + npml) * cell))
-    return Model(g, regions, background=background, edges=[Periodic(), CPML(npml)], **model_kw)
+    return Model(g, regions, background=background, edges=[Periodic(), CPML(npml, **(absorber_params or {}))],
+                 **model_kw)
 
 
 def commensurate_dt(model: Model, period: float, courant: float = 0.95) -> float:
@@ -83,3 +87,98 @@ def charge_in_comoving_cell(medium: Material, speed: float, length: float, cell:
     rec = DopplerWorkRecorder(solver, q, speed, 0.0, start=t0, duration=transits * transit)
     solver.run(until=t0 + transits * transit)
     return rec.result(), solver
+
+
+def light_line_safe_length(approx_length: float, cell: float, speed: float, internal_frequency: float,
+                           search: float = 0.2) -> float:
+    """A cell length near ``approx_length`` (a whole number of cells) whose harmonics
+    k_m = 2 pi m / L keep away from the vacuum light-line crossings of the normal
+    Doppler line, k = Omega/(1 - v) and k = -Omega/(1 + v).
+
+    A harmonic right at a crossing radiates at grazing incidence: its field
+    builds up and leaks out slowly, and a periodic cell then needs very long
+    runs (see DEVELOPERS.md, "Periodic cell pitfalls").
+    """
+    best, best_score = None, -1.0
+    n0 = int(round(approx_length / cell))
+    span = max(int(round(search * n0)), 1)
+    crossings = [internal_frequency / (1 - speed), -internal_frequency / (1 + speed)]
+    for n in range(max(n0 - span, 4), n0 + span + 1):
+        L = n * cell
+        dk = 2 * np.pi / L
+        score = min(abs(((c / dk) % 1.0) - 0.5) for c in crossings)
+        score = 0.5 - score                      # distance (in units of dk) to the nearest harmonic
+        if score > best_score:
+            best, best_score = L, score
+    return best
+
+
+def dipole_in_comoving_cell(speed: float, height: float, omega0: float, axis: str, length: float,
+                            cell: float, regions=(), background: Material = VACUUM,
+                            half_height: float = 3.0, absorber: float = 1.5, moment: float = 1.0,
+                            shape=None, ramp: float | None = None, settle_tol: float = 2e-3,
+                            max_settle: float = 400.0, transits: int = 8, flux_heights=(),
+                            polarization: str | None = None, absorber_params=None):
+    """Steady emission of a moving dipole in a co-moving periodic cell.
+
+    The dipole's oscillation is switched on over ``ramp`` (proper time; default
+    three lab periods); :func:`fdtd.spectral.run_until_steady` then waits for the
+    work rate to settle (``settle_tol``), and the Doppler-resolved work (and the
+    fluxes through the lines nearest ``flux_heights``) are recorded over
+    ``transits`` transit times with a Hann taper.  Returns a dict with
+    ``spectrum`` (:class:`~fdtd.spectral.DopplerSpectrum`), ``fluxes`` (one per
+    height), ``steady`` (bool), ``settle_rates``, ``ledger`` (balance over the
+    window) and ``solver``.
+
+    The absorbing layers default to a complex frequency shift alpha_max = 0.2 Omega:
+    the Doppler lines reach low frequencies (omega = k v + Omega -> 0 at
+    k = -Omega/v), whose quasi-static evanescent fields a CPML with alpha = 0
+    handles badly (the stretch 1 + i sigma/omega diverges); measured, the work
+    rate then drifts by about 1 % over hundreds of periods (DEVELOPERS.md).
+    """
+    import math
+
+    from .moving import MovingDipole
+    from .shapes import Shape
+    from .solver import Solver
+    from .spectral import DopplerFluxRecorder, DopplerWorkRecorder, run_until_steady
+    from .worldlines import UniformMotion
+
+    pol = polarization or ("tm" if axis == "z" else "te")
+    gam = 1.0 / math.sqrt(1.0 - speed * speed)
+    Omega = omega0 / gam
+    if absorber_params is None:
+        absorber_params = {"alpha_max": 0.2 * Omega}
+    model = comoving_cell(length, half_height, cell, pol, background=background, regions=regions,
+                          absorber=absorber, absorber_params=absorber_params)
+    transit = length / speed
+    solver = Solver(model, dt=commensurate_dt(model, transit))
+    if ramp is None:
+        ramp = 3 * 2 * math.pi / omega0
+    src = MovingDipole(moment, omega0, UniformMotion((0.0, height), (speed, 0.0)), axis=axis,
+                       ramp=ramp, shape=shape if shape is not None else Shape(3, 2))
+    solver.add_source(src)
+    solver.run(until=ramp * gam)
+    steady, rates = run_until_steady(solver, transit, tol=settle_tol, max_time=max_settle)
+    t0 = solver.time
+    T = transits * transit
+    rec = DopplerWorkRecorder(solver, src, speed, Omega, start=t0, duration=T)
+    rows = [model.grid.index_of(model.grid.e_components[0], (0.0, y))[1] for y in flux_heights]
+    frec = DopplerFluxRecorder(solver, speed, Omega, rows, start=t0, duration=T) if rows else None
+    solver.ledger.sample()
+    a = solver.ledger.samples[-1]
+    solver.run(until=t0 + T)
+    b = solver.ledger.sample()
+    led = {"source_work": b.source_work - a.source_work, "outflow": b.outflow - a.outflow,
+           "bath": float(b.bath.sum() - a.bath.sum()), "stored_change": b.stored - a.stored,
+           "window": b.time - a.time}
+    led["residual"] = (led["source_work"] - led["outflow"] - led["bath"] - led["stored_change"]) / \
+        max(abs(led["source_work"]), 1e-300)
+    spectrum = rec.result()
+    spectrum.meta["partial"] = not steady
+    fluxes = frec.result() if frec else []
+    for fl in fluxes:
+        fl.meta["partial"] = not steady
+    return {"spectrum": spectrum, "fluxes": fluxes, "steady": steady,
+            "settle_rates": rates, "ledger": led, "solver": solver, "source": src,
+            "flux_rows": rows}

@@ -117,8 +117,25 @@ class Shape:
         """Half-width of the support, cells."""
         return 0.5 * (self.order + 1) * self.scale
 
-    def form_factor(self, k, spacing: float):
-        """Continuum Fourier transform of the node shape at wavenumber k (normalized)."""
-        x = np.asarray(k, dtype=float) * spacing * self.scale / 2.0
-        s = np.sinc(x / math.pi)
-        return s ** (self.order + 1)
+    def form_factor(self, k, spacing: float, half: bool = False):
+        """Fourier transform F(k) = int S(u) exp(i k u) du of the deposited shape.
+
+        ``k`` may be complex: for an evanescent k_y = i kappa the sinc becomes
+        sinh(kappa a)/(kappa a), the (larger) weight with which a source of finite
+        height couples to a decaying field.  ``half=True`` gives the transform of
+        the derivative-consistent half-node shape, F(k) (k dx/2)/sin(k dx/2).
+        """
+        k = np.asarray(k)
+        if np.iscomplexobj(k):
+            x = k * spacing * self.scale / 2.0
+            s = np.where(np.abs(x) < 1e-8, 1.0 + 0j, np.sin(x) / np.where(np.abs(x) < 1e-8, 1.0, x))
+            f = s ** (self.order + 1)
+            if half:
+                z = k * spacing / 2.0
+                f = f * np.where(np.abs(z) < 1e-8, 1.0 + 0j, z / np.sin(np.where(np.abs(z) < 1e-8, 1.0, z)))
+            return f
+        x = k.astype(float) * spacing * self.scale / 2.0
+        f = np.sinc(x / math.pi) ** (self.order + 1)
+        if half:
+            f = f / np.sinc(k.astype(float) * spacing / 2.0 / math.pi)
+        return f

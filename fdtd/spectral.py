@@ -35,7 +35,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .errors import ParameterError
+from .errors import GeometryError, ParameterError
 
 
 @dataclass
@@ -58,6 +58,62 @@ class DopplerSpectrum:
     speed: float
     internal_frequency: float
     meta: dict = field(default_factory=dict)
+    halves: tuple | None = None      # (power of the first half-window, of the second), same points
+
+    # -- mechanics -------------------------------------------------------
+    def _moment(self, power, weight) -> float:
+        with np.errstate(divide="ignore", invalid="ignore"):
+            w = np.where(self.omega > 0, weight / np.where(self.omega > 0, self.omega, 1.0), 0.0)
+        return float(np.sum(power * w))
+
+    @property
+    def drag_force(self) -> float:
+        """x-momentum handed to the field per unit time, sum P k_x / omega (normalized force).
+
+        It is the force that keeps the source at constant speed (positive: the
+        field drags the source back)."""
+        return self._moment(self.power, self.kx)
+
+    @property
+    def motion_power(self) -> float:
+        """Power drawn from the motion, v * drag_force."""
+        return self.speed * self.drag_force
+
+    @property
+    def internal_power(self) -> float:
+        """Lab power drawn from the internal oscillation, sum P s Omega / omega.
+
+        Normal-branch points drain the oscillator (> 0), anomalous ones pump it
+        (< 0).  total = motion_power + internal_power.  The rest-frame rate of
+        change of the oscillator's energy is -gamma^2 times this (DEVELOPERS.md).
+        """
+        return self._moment(self.power, self.branch * self.internal_frequency)
+
+    # -- error estimates ---------------------------------------------------
+    def error(self, figure: str = "total") -> float:
+        """Estimated error of a figure ("total", "normal", "anomalous", "drag_force",
+        "internal_power"): the larger of the spread between the two half-windows
+        and, for the total, the unresolved part of the ledger's work."""
+        val = getattr(self, figure)
+        est = 0.0
+        if self.halves is not None:
+            for hp in self.halves:
+                twin = DopplerSpectrum(self.kx, self.omega, self.branch, hp, self.window,
+                                       self.source_work_rate, self.speed, self.internal_frequency)
+                est = max(est, abs(getattr(twin, figure) - val))
+        if figure == "total":
+            est = max(est, abs(self.unresolved))
+        return est
+
+    def summary(self) -> dict:
+        """Figures with error estimates (normalized units)."""
+        out = {}
+        for name in ("total", "normal", "anomalous", "drag_force", "motion_power", "internal_power"):
+            out[name] = {"value": getattr(self, name),
+                         "error": self.error(name) if name != "motion_power"
+                         else self.speed * self.error("drag_force")}
+        out["unresolved"] = {"value": self.unresolved, "error": 0.0}
+        return out
 
     @property
     def total(self) -> float:
@@ -121,10 +177,16 @@ class DopplerWorkRecorder:
         self.Omega = float(internal_frequency)
         self.start = float(start)
         self.duration = None if duration is None else float(duration)
-        if self.duration is not None and self.duration <= 0:
-            raise ParameterError(f"recording duration = {duration!r}: expected a positive time")
-        self.weight_sum = 0.0
         nx = g.shape[0]
+        if self.duration is not None:
+            slowest = max(nx * g.spacing[0] / self.speed if self.speed > 0 else 0.0,
+                          2 * math.pi / self.Omega if self.Omega > 0 else 0.0)
+            if not self.duration >= slowest:
+                raise ParameterError(
+                    f"recording duration = {duration!r} is shorter than one period of the slowest "
+                    f"component it must resolve ({slowest:.6g}: the transit time L/v or 2 pi/Omega); "
+                    "record over several whole transits")
+        self.weight_sum = 0.0
         self.nx = nx
         self.L = nx * g.spacing[0]
         self.comps = g.e_components
@@ -145,13 +207,18 @@ class DopplerWorkRecorder:
         self.k = 2 * np.pi * self.m / self.L
         self.lines = (0,) if self.Omega == 0.0 else (1, -1)
         shape = (len(self.lines), len(self.comps), self.rows.size, self.m.size)
-        self.A = np.zeros(shape, dtype=complex)
-        self.B = np.zeros(shape, dtype=complex)
         self.n_samples = 0
         self.t_first = None
         self.t_last = None
         self.work0 = None
         self._e0 = None
+        self._work_prev = None
+        self.weighted_work = 0.0
+        self.weighted_time = 0.0
+        n_win = 3 if self.duration is not None else 1
+        self.A = np.zeros((n_win,) + shape, dtype=complex)
+        self.B = np.zeros((n_win,) + shape, dtype=complex)
+        self.wsum = np.zeros(n_win)
         solver.observers.append(self)
 
     # -- hooks -----------------------------------------------------------
@@ -164,6 +231,7 @@ class DopplerWorkRecorder:
             self._e0 = None
             return
         self._e0 = [self._rows_of(solver.fields[c]).copy() for c in self.comps]
+        self._work_prev = solver.source_work
         if self.work0 is None:
             self.work0 = solver.source_work
             self.t_first = solver.step_count * solver.dt
@@ -174,12 +242,18 @@ class DopplerWorkRecorder:
         t = (solver.step_count - 0.5) * solver.dt      # t_{n+1/2} of the step just taken
         g = solver.model.grid
         nrow = self.rows.size
-        w = 1.0
         if self.duration is not None:
-            w = math.sin(math.pi * (t - self.start) / self.duration) ** 2
+            x = (t - self.start) / self.duration
+            # Hann tapers on the whole window and on each half (for the error estimate)
+            weights = np.array([math.sin(math.pi * x) ** 2,
+                                math.sin(2 * math.pi * x) ** 2 if x < 0.5 else 0.0,
+                                math.sin(2 * math.pi * x) ** 2 if x >= 0.5 else 0.0])
+        else:
+            weights = np.ones(1)
+        w = weights[0]
         phase = np.empty((len(self.lines), self.m.size), dtype=complex)
         for a, s in enumerate(self.lines):
-            phase[a] = w * np.exp(1j * (self.k * self.speed + s * self.Omega) * t)
+            phase[a] = np.exp(1j * (self.k * self.speed + s * self.Omega) * t)
         for ci, c in enumerate(self.comps):
             ebar = 0.5 * (self._e0[ci] + self._rows_of(solver.fields[c]))
             Ehat = np.fft.fft(ebar, axis=0)[self.m_index]          # (m, rows)
@@ -199,10 +273,19 @@ class DopplerWorkRecorder:
                     np.add.at(J[:, 0], flat, vals)
             Jhat = np.fft.fft(J, axis=0)[self.m_index]
             for a in range(len(self.lines)):
-                self.A[a, ci] += (phase[a][:, None] * Jhat).T
-                self.B[a, ci] += (phase[a][:, None] * Ehat).T
+                pa = (phase[a][:, None] * Jhat).T
+                pb = (phase[a][:, None] * Ehat).T
+                for wi, ww in enumerate(weights):
+                    if ww != 0.0:
+                        self.A[wi, a, ci] += ww * pa
+                        self.B[wi, a, ci] += ww * pb
+        self.wsum += weights
         self.n_samples += 1
         self.weight_sum += w
+        # the ledger's work of this step, with the same taper (removes the 2 Omega
+        # swing of the reactive near-field energy that a flat window would keep)
+        self.weighted_work += w * (solver.source_work - self._work_prev)
+        self.weighted_time += w * solver.dt
         self.t_last = solver.step_count * solver.dt
         self.work_last = solver.source_work
 
@@ -210,9 +293,13 @@ class DopplerWorkRecorder:
     def result(self) -> DopplerSpectrum:
         if self.n_samples == 0:
             raise ParameterError("DopplerWorkRecorder: nothing recorded (start time after the run?)")
-        W = self.weight_sum
         dV = self.solver.model.grid.cell_volume
-        P = -(dV / self.nx) * np.real(np.conj(self.A) * self.B).sum(axis=(1, 2)) / W**2   # (lines, m)
+        powers = []
+        for wi in range(self.A.shape[0]):
+            W = self.wsum[wi]
+            powers.append(-(dV / self.nx) * np.real(np.conj(self.A[wi]) * self.B[wi]).sum(axis=(1, 2))
+                          / max(W, 1e-300) ** 2)
+        P = powers[0]   # (lines, m)
         kx, om, br, pw = [], [], [], []
         for a, s in enumerate(self.lines):
             w = self.k * self.speed + s * self.Omega
@@ -225,13 +312,200 @@ class DopplerWorkRecorder:
         # combine each physical point with its conjugate twin
         key = np.round(kx * 1e9).astype(np.int64) * 3 + br
         uniq, inv = np.unique(key, return_inverse=True)
-        out_p = np.zeros(uniq.size)
-        np.add.at(out_p, inv, pw)
+
+        def combine(values):
+            out = np.zeros(uniq.size)
+            np.add.at(out, inv, values)
+            return out
+
+        out_p = combine(pw)
         first = np.zeros(uniq.size, dtype=int)
         first[inv[::-1]] = np.arange(inv.size)[::-1]
         window = self.t_last - self.t_first
-        rate = (self.work_last - self.work0) / window
+        rate = self.weighted_work / self.weighted_time if self.weighted_time > 0 else float("nan")
         order = np.lexsort((kx[first], br[first]))
+        halves = None
+        if len(powers) == 3 and self.wsum[1] > 0 and self.wsum[2] > 0:
+            halves = tuple(combine(np.concatenate([powers[wi][a] for a in range(len(self.lines))]))[order]
+                           for wi in (1, 2))
         return DopplerSpectrum(kx[first][order], om[first][order], br[first][order], out_p[order],
                                window, rate, self.speed, self.Omega,
-                               {"samples": self.n_samples, "t_first": self.t_first, "t_last": self.t_last})
+                               {"samples": self.n_samples, "t_first": self.t_first, "t_last": self.t_last,
+                                "flat_work_rate": (self.work_last - self.work0) / window},
+                               halves=halves)
+
+
+def _taper_weights(t: float, start: float, duration: float | None) -> np.ndarray:
+    """Hann weights on the whole window and on each half (or a flat weight)."""
+    if duration is None:
+        return np.ones(1)
+    x = (t - start) / duration
+    return np.array([math.sin(math.pi * x) ** 2,
+                     math.sin(2 * math.pi * x) ** 2 if x < 0.5 else 0.0,
+                     math.sin(2 * math.pi * x) ** 2 if x >= 0.5 else 0.0])
+
+
+class DopplerFluxRecorder:
+    """Doppler-resolved Poynting flux through horizontal grid lines of a periodic-x cell.
+
+    For each storage row ``jb`` of the tangential E component, the exact
+    discrete upward flux across the face between E row jb and H row jb (the
+    face formula of the energy ledger, DEVELOPERS.md), per unit length along z,
+
+        TE:  F = -dx sum_i Ebar_x(i, jb) H_z(i, jb),    TM:  F = dx sum_i Ebar_z(i, jb) H_x(i, jb),
+
+    is split over the Doppler points (k_m, omega = k_m v + s Omega) by the same
+    demodulation as :class:`DopplerWorkRecorder`.  Positive = upward (+y).
+    """
+
+    def __init__(self, solver, speed: float, internal_frequency: float, rows, start: float = 0.0,
+                 duration: float | None = None, m_max: int | None = None):
+        g = solver.model.grid
+        if g.dims != 2 or not solver.model.periodic[0]:
+            raise ParameterError("DopplerFluxRecorder needs a 2D grid periodic along x")
+        rows = np.atleast_1d(np.asarray(rows, dtype=np.int64))
+        if rows.min() < 0 or rows.max() >= g.shape[1]:
+            raise GeometryError(f"flux rows {rows.tolist()} outside the grid rows 0..{g.shape[1] - 1}")
+        self.solver = solver
+        self.rows = rows
+        self.speed = float(speed)
+        self.Omega = float(internal_frequency)
+        self.start = float(start)
+        self.duration = None if duration is None else float(duration)
+        nx = g.shape[0]
+        self.nx = nx
+        self.L = nx * g.spacing[0]
+        self.ec, self.hc, self.sign = ("Ex", "Hz", -1.0) if g.polarization == "te" else ("Ez", "Hx", 1.0)
+        m_max = nx // 2 if m_max is None else int(m_max)
+        msig = np.fft.fftfreq(nx, d=1.0 / nx).astype(int)
+        self.m_index = np.nonzero(np.abs(msig) <= m_max)[0]
+        self.k = 2 * np.pi * msig[self.m_index] / self.L
+        self.lines = (0,) if self.Omega == 0.0 else (1, -1)
+        n_win = 3 if self.duration is not None else 1
+        shape = (n_win, len(self.lines), rows.size, self.m_index.size)
+        self.A = np.zeros(shape, dtype=complex)
+        self.B = np.zeros(shape, dtype=complex)
+        self.wsum = np.zeros(n_win)
+        self._e0 = None
+        solver.observers.append(self)
+
+    def before_step(self, solver) -> None:
+        t_half = (solver.step_count + 0.5) * solver.dt
+        inside = t_half >= self.start and (self.duration is None or t_half <= self.start + self.duration)
+        self._e0 = solver.fields[self.ec][:, self.rows].copy() if inside else None
+
+    def after_step(self, solver, injections) -> None:
+        if self._e0 is None:
+            return
+        t = (solver.step_count - 0.5) * solver.dt
+        weights = _taper_weights(t, self.start, self.duration)
+        ebar = 0.5 * (self._e0 + solver.fields[self.ec][:, self.rows])
+        Eh = np.fft.fft(ebar, axis=0)[self.m_index].T            # (rows, m)
+        Hh = np.fft.fft(solver.fields[self.hc][:, self.rows], axis=0)[self.m_index].T
+        for a, s in enumerate(self.lines):
+            ph = np.exp(1j * (self.k * self.speed + s * self.Omega) * t)
+            for wi, ww in enumerate(weights):
+                if ww != 0.0:
+                    self.A[wi, a] += ww * ph * Eh
+                    self.B[wi, a] += ww * ph * Hh
+        self.wsum += weights
+
+    def result(self) -> list[DopplerSpectrum]:
+        """One :class:`DopplerSpectrum` per row; its ``power`` holds the upward flux."""
+        if self.wsum[0] == 0:
+            raise ParameterError("DopplerFluxRecorder: nothing recorded (start time after the run?)")
+        dx = self.solver.model.grid.spacing[0]
+        out = []
+        for r in range(self.rows.size):
+            per_window = []
+            for wi in range(self.A.shape[0]):
+                W = max(self.wsum[wi], 1e-300)
+                per_window.append(self.sign * (dx / self.nx)
+                                  * np.real(np.conj(self.A[wi, :, r]) * self.B[wi, :, r]) / W**2)
+            kx, om, br = [], [], []
+            for a, s in enumerate(self.lines):
+                w = self.k * self.speed + s * self.Omega
+                pos = w >= 0
+                kx.append(np.where(pos, self.k, -self.k))
+                om.append(np.abs(w))
+                br.append(np.where(pos, s, -s))
+            kx, om, br = map(np.concatenate, (kx, om, br))
+            key = np.round(kx * 1e9).astype(np.int64) * 3 + br
+            uniq, inv = np.unique(key, return_inverse=True)
+
+            def combine(vals):
+                o = np.zeros(uniq.size)
+                np.add.at(o, inv, vals)
+                return o
+
+            first = np.zeros(uniq.size, dtype=int)
+            first[inv[::-1]] = np.arange(inv.size)[::-1]
+            order = np.lexsort((kx[first], br[first]))
+            flux = [combine(np.concatenate(list(pw)))[order] for pw in per_window]
+            halves = (flux[1], flux[2]) if len(flux) == 3 else None
+            out.append(DopplerSpectrum(kx[first][order], om[first][order], br[first][order], flux[0],
+                                       float("nan"), float("nan"), self.speed, self.Omega,
+                                       {"row": int(self.rows[r])}, halves=halves))
+        return out
+
+
+class SteadyStateWarning(UserWarning):
+    """A run did not settle to the requested tolerance within the allowed time."""
+
+
+def run_until_steady(solver, period: float, tol: float = 2e-3, max_time: float = 1e4,
+                     min_blocks: int = 3):
+    """Advance until the dissipated power settles; return (steady, block_rates).
+
+    The run advances in blocks of ``period`` (a transit time L/v or a multiple
+    of it).  In each block the Hann-weighted mean of the power that leaves the
+    field for good, outflow into the absorbing layers plus heat into the bath
+    (from the energy ledger), is formed: unlike the source's work it has almost
+    no share of the large reactive near-field exchange at 2 Omega.  Steady =
+    the last ``min_blocks`` rates agree with their mean within ``tol``
+    (relative).  If ``max_time`` passes first, a :class:`SteadyStateWarning`
+    says what to change, and the results recorded afterwards are partial.
+    """
+    period = _positive("period", period)
+    if solver.ledger is None:
+        raise ParameterError("run_until_steady needs the energy ledger (Solver(..., ledger=True))")
+    led = solver.ledger
+    rates = []
+
+    def dissipated():
+        return led.outflow + float(solver.bath_rows.sum()) * solver.model.grid.cell_volume / (4 * solver.dt)
+
+    while True:
+        steps = max(int(round(period / solver.dt)), 1)
+        ws = np.empty(steps)
+        prev = dissipated()
+        for n in range(steps):
+            solver.step()
+            now = dissipated()
+            ws[n] = now - prev
+            prev = now
+        x = (np.arange(steps) + 0.5) / steps
+        w = np.sin(np.pi * x) ** 2
+        rates.append(float(np.sum(w * ws) / (np.sum(w) * solver.dt)))
+        if len(rates) >= min_blocks:
+            last = np.array(rates[-min_blocks:])
+            scale = max(abs(last.mean()), 1e-300)
+            if np.max(np.abs(last - last.mean())) <= tol * scale:
+                return True, rates
+        if solver.time >= max_time:
+            import warnings
+
+            last = np.array(rates[-min_blocks:])
+            spread = float(np.max(np.abs(last - last.mean())) / max(abs(last.mean()), 1e-300))
+            warnings.warn(
+                f"the dissipated power did not settle to tol = {tol:g} by t = {solver.time:.6g} "
+                f"(spread of the last {min_blocks} blocks {spread:.2e}): allow more time (max_time), "
+                "add loss, or accept a larger tol; results recorded from here are partial",
+                SteadyStateWarning, stacklevel=2)
+            return False, rates
+
+
+def _positive(name, value):
+    if not (value > 0 and math.isfinite(value)):
+        raise ParameterError(f"{name} = {value!r} is not allowed: expected a finite number > 0")
+    return float(value)
