@@ -222,6 +222,10 @@ class MovingCharge(_MovingSource):
             out.append(("Ex", flat_dc, -np.broadcast_to(mean_rows, (nx, jj.size)).reshape(-1)))
         return out
 
+    def branch_currents(self, t_half: float):
+        """For a charge the current itself (one branch, real)."""
+        return self.currents(t_half)
+
     def charge_density(self, t: float) -> tuple[np.ndarray, np.ndarray]:
         """(flat indices, density) of the deposited charge on integer nodes at time t."""
         X = self.cell_position(t)
@@ -293,17 +297,50 @@ class MovingDipole(_MovingSource):
             p = p - (1.0 - 1.0 / gam) * (p @ vhat) * vhat
         return p
 
+    def lab_moment_complex(self, t: float) -> np.ndarray:
+        """Lab dipole vector of the positive-frequency part p0/2 R exp(-i(omega0 tau + phase)).
+
+        The real moment is twice its real part; it carries the normal Doppler
+        branch at lab frequencies omega > 0 and the anomalous one at omega < 0.
+        """
+        tau = self.worldline.proper_time(t)
+        p = np.zeros(3, dtype=complex)
+        p[AXES[self.axis]] = 0.5 * self.moment * smooth_ramp(tau, self.ramp) * \
+            np.exp(-1j * (self.omega0 * tau + self.phase))
+        v = np.zeros(3)
+        v[: self.worldline.dims] = self.worldline.velocity(t)
+        s2 = float(v @ v)
+        if s2 > 0:
+            gam = 1.0 / math.sqrt(1.0 - s2)
+            vhat = v / math.sqrt(s2)
+            p = p - (1.0 - 1.0 / gam) * (p @ vhat) * vhat
+        return p
+
+    def branch_currents(self, t_half: float):
+        """Complex current of the positive-frequency part (list like :meth:`currents`).
+
+        The deposit is linear in the moment: real and imaginary parts are
+        deposited separately with the same kernels.
+        """
+        re = self._currents_for(lambda t: np.real(self.lab_moment_complex(t)), t_half)
+        im = self._currents_for(lambda t: np.imag(self.lab_moment_complex(t)), t_half)
+        return [(c, flat, a + 1j * b) for (c, flat, a), (_c, _f, b) in zip(re, im)]
+
     def lab_frequency(self, t: float = 0.0) -> float:
         """omega0 / gamma at time t (the lab oscillation frequency)."""
         return self.omega0 / self.worldline.gamma(t)
 
     def currents(self, t_half: float):
+        self._check_inside(t_half + 0.5 * self.dt)
+        self._check_speed(t_half)
+        return self._currents_for(self.lab_moment, t_half)
+
+    def _currents_for(self, moment, t_half: float):
+        """Deposit the current of the moment function ``moment(t)`` (3-vector) over one step."""
         dt = self.dt
         ts = (t_half - 0.5 * dt, t_half + 0.5 * dt)
-        self._check_inside(ts[1])
-        self._check_speed(t_half)
         X = np.array([self.cell_position(t) for t in ts])
-        p = np.array([self.lab_moment(t) for t in ts])
+        p = np.array([moment(t) for t in ts])
         g = self.grid
         o, s = self.shape.order, self.shape.scale
         if g.polarization == "te":

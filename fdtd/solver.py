@@ -255,12 +255,13 @@ class Solver:
                 work -= dt * float(np.dot(J, 0.5 * (e0 + e1))) * dV
             self.source_work += work
             self.injected_abs += abs(work)
-            for obs in self.observers:
-                obs.after_step(self, inj)
             if self.ledger is not None:
                 self.ledger.source_work += work
                 self.ledger.flux_accumulate(flux_before)
             self.step_count += 1
+            # observers see the completed step: E^{n+1}, H^{n+1/2}, step_count = n + 1
+            for obs in self.observers:
+                obs.after_step(self, inj)
 
     # ------------------------------------------------------------------
     def field_energy_measure(self) -> float:
