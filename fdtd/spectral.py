@@ -36,6 +36,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .errors import GeometryError, ParameterError
+from .kernels import demod
 
 
 @dataclass
@@ -155,6 +156,9 @@ class DopplerWorkRecorder:
         Largest |m| kept (default nx // 2).
     start : float
         Lab time at which recording starts (skip the switch-on).
+    every : int
+        Record every that many steps (default 1).  Refused if the sampling would
+        alias the highest recorded Doppler line (omega dt every >= pi).
     duration : float, optional
         Length of the recording window.  With it the demodulation uses a
         Hann taper ``sin^2(pi (t - start)/duration)``: exact for the Doppler
@@ -166,7 +170,7 @@ class DopplerWorkRecorder:
 
     def __init__(self, solver, source, speed: float, internal_frequency: float = 0.0,
                  rows=None, m_max: int | None = None, start: float = 0.0,
-                 duration: float | None = None):
+                 duration: float | None = None, every: int = 1):
         g = solver.model.grid
         if g.dims != 2 or not solver.model.periodic[0]:
             if not (g.dims == 1 and solver.model.periodic[0]):
@@ -206,6 +210,24 @@ class DopplerWorkRecorder:
         self.m = msig[self.m_index]
         self.k = 2 * np.pi * self.m / self.L
         self.lines = (0,) if self.Omega == 0.0 else (1, -1)
+        self._k_speed = self.k * self.speed
+        self._line_freq = np.array([s_ * self.Omega for s_ in self.lines])
+        # node positions along x (the same for every component up to a constant phase,
+        # which cancels in J* E): use integer node positions
+        self._x_of_i = np.arange(nx) * g.spacing[0]
+        # phase table for the sparse transform of the current (bounded size)
+        self._table = (np.exp(-1j * np.outer(self._x_of_i, self.k)) if nx * self.k.size <= 4_000_000
+                       else None)
+        self._src_index = np.where(self.m_index <= nx // 2, self.m_index, nx - self.m_index).astype(np.int64)
+        self._conj = self.m_index > nx // 2
+        self.every = int(every)
+        if self.every < 1:
+            raise ParameterError(f"every = {every!r}: expected an integer >= 1")
+        w_max = float(np.max(np.abs(self.k)) * self.speed + self.Omega)
+        if w_max * solver.dt * self.every >= math.pi:
+            raise ParameterError(
+                f"every = {every} samples the highest Doppler line (omega = {w_max:.4g}) below its "
+                f"Nyquist rate: use every < {math.pi / (w_max * solver.dt):.3g} or a smaller m_max")
         shape = (len(self.lines), len(self.comps), self.rows.size, self.m.size)
         self.n_samples = 0
         self.t_first = None
@@ -227,7 +249,8 @@ class DopplerWorkRecorder:
 
     def before_step(self, solver) -> None:
         t_half = (solver.step_count + 0.5) * solver.dt
-        if t_half < self.start or (self.duration is not None and t_half > self.start + self.duration):
+        if t_half < self.start or (self.duration is not None and t_half > self.start + self.duration) \
+                or solver.step_count % self.every:
             self._e0 = None
             return
         self._e0 = [self._rows_of(solver.fields[c]).copy() for c in self.comps]
@@ -241,7 +264,6 @@ class DopplerWorkRecorder:
             return
         t = (solver.step_count - 0.5) * solver.dt      # t_{n+1/2} of the step just taken
         g = solver.model.grid
-        nrow = self.rows.size
         if self.duration is not None:
             x = (t - self.start) / self.duration
             # Hann tapers on the whole window and on each half (for the error estimate)
@@ -250,44 +272,40 @@ class DopplerWorkRecorder:
                                 math.sin(2 * math.pi * x) ** 2 if x >= 0.5 else 0.0])
         else:
             weights = np.ones(1)
+        phase = np.exp(1j * (self._k_speed[None, :] + self._line_freq[:, None]) * t)
+        # E-bar on the recorded rows, contiguous along x for the transform
+        ebar = np.stack([0.5 * (self._e0[ci] + self._rows_of(solver.fields[c])).T
+                         for ci, c in enumerate(self.comps)])           # (comp, rows, nx)
+        Epos = np.fft.rfft(ebar, axis=-1)
+        Jhat = np.zeros((len(self.comps), self.rows.size, self.k.size), dtype=complex)
+        for comp, flat, vals, _e in injections:
+            if comp not in self.comps or not flat.size:
+                continue
+            ci = self.comps.index(comp)
+            if g.dims == 2:
+                ii, jj = np.divmod(flat, g.shape[1])
+                pos = self._row_pos[jj]
+                if np.any(pos < 0) and np.any(vals[pos < 0] != 0):
+                    raise ParameterError("DopplerWorkRecorder: the source current left the "
+                                         "recorded rows; give rows= covering its path")
+            else:
+                ii, pos = flat, np.zeros(flat.size, dtype=np.int64)
+            # no BLAS here: its own threads would fight the kernel's OpenMP threads
+            if self._table is not None:
+                demod.sparse_dft_table(Jhat[ci], ii, pos, vals.astype(float), self._table)
+            else:
+                demod.sparse_dft(Jhat[ci], ii, pos, vals.astype(float), self.k, self._x_of_i)
+        demod.accumulate_half(self.A, self.B, Jhat, Epos, self._src_index, self._conj, phase, weights)
         w = weights[0]
-        phase = np.empty((len(self.lines), self.m.size), dtype=complex)
-        for a, s in enumerate(self.lines):
-            phase[a] = np.exp(1j * (self.k * self.speed + s * self.Omega) * t)
-        for ci, c in enumerate(self.comps):
-            ebar = 0.5 * (self._e0[ci] + self._rows_of(solver.fields[c]))
-            Ehat = np.fft.fft(ebar, axis=0)[self.m_index]          # (m, rows)
-            J = np.zeros((self.nx, nrow))
-            for comp, flat, vals, _e in injections:
-                if comp != c:
-                    continue
-                if g.dims == 2:
-                    ii, jj = np.divmod(flat, g.shape[1])
-                    pos = self._row_pos[jj]
-                    sel = pos >= 0
-                    if not np.all(sel) and np.any(vals[~sel] != 0):
-                        raise ParameterError("DopplerWorkRecorder: the source current left the "
-                                             "recorded rows; give rows= covering its path")
-                    np.add.at(J, (ii[sel], pos[sel]), vals[sel])
-                else:
-                    np.add.at(J[:, 0], flat, vals)
-            Jhat = np.fft.fft(J, axis=0)[self.m_index]
-            for a in range(len(self.lines)):
-                pa = (phase[a][:, None] * Jhat).T
-                pb = (phase[a][:, None] * Ehat).T
-                for wi, ww in enumerate(weights):
-                    if ww != 0.0:
-                        self.A[wi, a, ci] += ww * pa
-                        self.B[wi, a, ci] += ww * pb
         self.wsum += weights
         self.n_samples += 1
         self.weight_sum += w
+        self.t_last = solver.step_count * solver.dt
+        self.work_last = solver.source_work
         # the ledger's work of this step, with the same taper (removes the 2 Omega
         # swing of the reactive near-field energy that a flat window would keep)
         self.weighted_work += w * (solver.source_work - self._work_prev)
         self.weighted_time += w * solver.dt
-        self.t_last = solver.step_count * solver.dt
-        self.work_last = solver.source_work
 
     # -- result -----------------------------------------------------------
     def result(self) -> DopplerSpectrum:
@@ -359,7 +377,7 @@ class DopplerFluxRecorder:
     """
 
     def __init__(self, solver, speed: float, internal_frequency: float, rows, start: float = 0.0,
-                 duration: float | None = None, m_max: int | None = None):
+                 duration: float | None = None, m_max: int | None = None, every: int = 1):
         g = solver.model.grid
         if g.dims != 2 or not solver.model.periodic[0]:
             raise ParameterError("DopplerFluxRecorder needs a 2D grid periodic along x")
@@ -383,8 +401,19 @@ class DopplerFluxRecorder:
         self.lines = (0,) if self.Omega == 0.0 else (1, -1)
         n_win = 3 if self.duration is not None else 1
         shape = (n_win, len(self.lines), rows.size, self.m_index.size)
-        self.A = np.zeros(shape, dtype=complex)
-        self.B = np.zeros(shape, dtype=complex)
+        self._line_freq = np.array([s_ * self.Omega for s_ in self.lines])
+        self._src_index = np.where(self.m_index <= nx // 2, self.m_index, nx - self.m_index).astype(np.int64)
+        self._conj = self.m_index > nx // 2
+        self.every = int(every)
+        w_max = float(np.max(np.abs(self.k)) * self.speed + self.Omega)
+        if self.every < 1 or w_max * solver.dt * self.every >= math.pi:
+            raise ParameterError(
+                f"every = {every!r}: expected an integer >= 1 below the Nyquist limit "
+                f"{math.pi / (w_max * solver.dt):.3g} of the highest Doppler line")
+        self._A5 = np.zeros((n_win, len(self.lines), 1, rows.size, self.m_index.size), dtype=complex)
+        self._B5 = np.zeros_like(self._A5)
+        self.A = self._A5[:, :, 0]
+        self.B = self._B5[:, :, 0]
         self.wsum = np.zeros(n_win)
         self._e0 = None
         solver.observers.append(self)
@@ -392,6 +421,7 @@ class DopplerFluxRecorder:
     def before_step(self, solver) -> None:
         t_half = (solver.step_count + 0.5) * solver.dt
         inside = t_half >= self.start and (self.duration is None or t_half <= self.start + self.duration)
+        inside = inside and solver.step_count % self.every == 0
         self._e0 = solver.fields[self.ec][:, self.rows].copy() if inside else None
 
     def after_step(self, solver, injections) -> None:
@@ -399,15 +429,12 @@ class DopplerFluxRecorder:
             return
         t = (solver.step_count - 0.5) * solver.dt
         weights = _taper_weights(t, self.start, self.duration)
-        ebar = 0.5 * (self._e0 + solver.fields[self.ec][:, self.rows])
-        Eh = np.fft.fft(ebar, axis=0)[self.m_index].T            # (rows, m)
-        Hh = np.fft.fft(solver.fields[self.hc][:, self.rows], axis=0)[self.m_index].T
-        for a, s in enumerate(self.lines):
-            ph = np.exp(1j * (self.k * self.speed + s * self.Omega) * t)
-            for wi, ww in enumerate(weights):
-                if ww != 0.0:
-                    self.A[wi, a] += ww * ph * Eh
-                    self.B[wi, a] += ww * ph * Hh
+        ebar = 0.5 * (self._e0 + solver.fields[self.ec][:, self.rows]).T
+        Eh = demod.half_spectrum_to_full(np.fft.rfft(ebar, axis=-1), self.m_index, self.nx)
+        Hpos = np.fft.rfft(np.ascontiguousarray(solver.fields[self.hc][:, self.rows].T), axis=-1)
+        phase = np.exp(1j * (self.k[None, :] * self.speed + self._line_freq[:, None]) * t)
+        demod.accumulate_half(self._A5, self._B5, Eh[None], Hpos[None], self._src_index, self._conj,
+                              phase, weights)
         self.wsum += weights
 
     def result(self) -> list[DopplerSpectrum]:
