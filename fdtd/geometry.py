@@ -146,6 +146,34 @@ class Polygon(Region):
 
 
 @dataclass(frozen=True)
+class Grating(Region):
+    """Teeth of width ``duty * period`` repeated along x, for ``top - depth <= y < top``.
+
+    A tooth starts at x = x_offset + n * period.  Periodic along x with
+    ``period``; choose a co-moving cell length that is a multiple of it.
+    """
+
+    period: float
+    duty: float
+    top: float
+    depth: float
+    x_offset: float = 0.0
+
+    def __post_init__(self) -> None:
+        _checks.positive("grating period", self.period)
+        _checks.in_range("grating duty", self.duty, 0.0, 1.0, lo_open=True)
+        _checks.positive("grating depth", self.depth)
+        _checks.finite_number("grating top", self.top)
+
+    def contains(self, *coords):
+        if len(coords) != 2:
+            raise GeometryError("a grating needs a 2D grid")
+        x, y = coords
+        frac = np.mod((x - self.x_offset) / self.period, 1.0)
+        return (frac < self.duty) & (y >= self.top - self.depth) & (y < self.top)
+
+
+@dataclass(frozen=True)
 class Placement:
     region: Region
     material: Material
