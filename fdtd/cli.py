@@ -1,9 +1,16 @@
-"""The ``gapwake`` command line: a thin layer over the Python API."""
+"""The ``gapwake`` command line: a thin layer over :mod:`fdtd.api`.
+
+Exit codes: 0 success; 1 a run failed (e.g. numerical instability); 2 the
+scenario or the command line is wrong (nothing is written); 130 interrupted
+(partial results written and marked so).
+"""
 
 from __future__ import annotations
 
 import argparse
+import json
 import sys
+import warnings
 
 from ._version import __version__
 
@@ -11,28 +18,171 @@ from ._version import __version__
 def build_parser() -> argparse.ArgumentParser:
     p = argparse.ArgumentParser(
         prog="gapwake",
-        description="Time-domain (Yee grid) simulation of moving charges and dipoles beside "
-                    "dispersive, lossy dielectrics: Cherenkov and Doppler-branch emission, drag "
-                    "and energy balance.")
+        description="Time-domain (Yee grid) simulation of moving charges and dipoles beside dispersive, "
+                    "lossy dielectrics: Cherenkov and Doppler-branch emission, drag and energy balance. "
+                    "Describe a situation in a TOML scenario file (see scenarios/ and docs/scenarios.md), "
+                    "check it, run it, plot and animate the results.")
     p.add_argument("--version", action="version", version=f"gapwake {__version__}")
     sub = p.add_subparsers(dest="command", metavar="COMMAND")
-    d = sub.add_parser("demo", help="run a one-minute demonstration and write a figure",
-                       description="A current pulse above a lossy Lorentz half-space: prints the "
-                                   "energy ledger and writes a snapshot figure.")
-    d.add_argument("-o", "--outdir", default="gapwake-demo", help="folder for the figure")
-    d.add_argument("--quiet", action="store_true", help="no progress line")
+
+    c = sub.add_parser("check", help="validate a scenario and print the resolved grid, estimates and warnings",
+                       description="Validate a scenario file against the schema and print, for each scan "
+                                   "point, the resolved grid (cells, time step, steps), a memory estimate, "
+                                   "a run-time estimate from a quick calibration on this machine, and "
+                                   "warnings (too few cells per wavelength, numerical Cherenkov, source close "
+                                   "to the absorbing layer, run too short to settle). Exit 2 on errors.")
+    c.add_argument("file")
+    c.add_argument("--set", action="append", default=[], metavar="KEY=VALUE",
+                   help='override a value, e.g. --set source.speed="0.4 c"')
+
+    r = sub.add_parser("run", help="run a scenario and write an HDF5 results file",
+                       description="Run a scenario (all points of a scan) and write one HDF5 file (layout in "
+                                   "docs/results.md), then print a summary table. Ctrl-C stops cleanly and "
+                                   "writes what was measured, marked partial.")
+    r.add_argument("file")
+    r.add_argument("-o", "--output", help="results file (default: the scenario's name with .h5)")
+    r.add_argument("--json", action="store_true", help="print the summary as JSON (values with units)")
+    r.add_argument("--quiet", action="store_true", help="no progress output")
+    r.add_argument("--checkpoint", help="checkpoint file (written every run.checkpoint_every steps)")
+    r.add_argument("--resume", metavar="CHECKPOINT", help="continue a run from a checkpoint")
+    r.add_argument("--set", action="append", default=[], metavar="KEY=VALUE", help="override a value")
+
+    pl = sub.add_parser("plot", help="figures (PNG and PDF) from a results file",
+                        description="Geometry with the source path, k_x-resolved Doppler-branch spectra "
+                                    "(with the planar reference when available), the (k_x, omega) map with "
+                                    "Doppler lines and dispersion curves, the energy ledger over time, and a "
+                                    "scan overview.")
+    pl.add_argument("results")
+    pl.add_argument("-o", "--outdir", help="folder for the figures (default: next to the results file)")
+    pl.add_argument("--format", default="png,pdf", help="comma-separated formats (default png,pdf)")
+
+    a = sub.add_parser("animate", help="animation of a field component from the stored snapshots",
+                       description="MP4 (through imageio-ffmpeg) or GIF of the stored snapshots, with a "
+                                   "fixed symmetric colour scale, the source marked and the surfaces drawn.")
+    a.add_argument("results")
+    a.add_argument("-o", "--output", help="movie.mp4 or movie.gif (default: results name .gif)")
+    a.add_argument("--component", help="field component (default: the one stored)")
+    a.add_argument("--energy", action="store_true", help="show the squared field instead")
+    a.add_argument("--fps", type=int, default=12)
+
+    d = sub.add_parser("demo", help="run a one-minute example scenario, plot and animate it",
+                       description="Runs scenarios/demo_dipole_above_lorentz.toml (a dipole gliding above a "
+                                   "lossy Lorentz half-space, about half a minute), writes the results, the "
+                                   "figures and an animation, and prints where they went.")
+    d.add_argument("-o", "--outdir", default="gapwake-demo", help="folder for the outputs")
+    d.add_argument("--quiet", action="store_true", help="no progress output")
     return p
+
+
+def _overrides(scenario, pairs):
+    import tomllib
+
+    for pair in pairs:
+        key, _, raw = pair.partition("=")
+        try:
+            value = tomllib.loads(f"v = {raw}")["v"]
+        except tomllib.TOMLDecodeError:
+            value = raw
+        scenario = scenario.set(key.strip(), value)
+    return scenario
+
+
+def _print_summary(out, stream=sys.stdout) -> None:
+    for k, pt in enumerate(out.points):
+        if len(out.points) > 1:
+            stream.write(f"point {k}\n")
+        for name, v in pt.items():
+            val = v.get("value")
+            if isinstance(val, float):
+                err = v.get("error")
+                es = f" +- {err:.2e}" if isinstance(err, float) else ""
+                stream.write(f"  {name:28s} {val: .6e}{es} {v.get('units', '')}\n")
+            else:
+                stream.write(f"  {name:28s} {val} {v.get('units', '')}\n")
+    stream.write(f"results: {out.file} ({out.status}: {out.stop_reason})\n")
 
 
 def main(argv=None) -> int:
     parser = build_parser()
     args = parser.parse_args(argv)
-    if args.command == "demo":
-        from .demo import run_demo
-
-        run_demo(args.outdir, progress=False if args.quiet else None)
+    if args.command is None:
+        parser.print_help()
         return 0
-    parser.print_help()
+    from . import api
+    from .errors import GapwakeError
+    from .quantities import ScenarioError
+
+    try:
+        if args.command == "check":
+            sc = _overrides(api.load(args.file), args.set)
+            for rep in api.check(sc):
+                print(rep.text)
+            return 0
+        if args.command == "run":
+            sc = _overrides(api.load(args.file), args.set)
+            quiet = args.quiet or args.json
+            progress = None if not quiet else False
+            log = (lambda m: None) if quiet else (lambda m: print(m, file=sys.stderr))
+            with warnings.catch_warnings():
+                if quiet:
+                    warnings.simplefilter("ignore")
+                out = api.run(sc, args.output, progress=progress, checkpoint=args.checkpoint,
+                              resume=args.resume, log=log)
+            if args.json:
+                print(json.dumps({"file": out.file, "status": out.status, "stop_reason": out.stop_reason,
+                                  "points": out.points}, indent=1, default=float))
+            else:
+                _print_summary(out)
+            return 130 if out.stop_reason.startswith("interrupted") else 0
+        if args.command == "plot":
+            from .plotting import plot_all
+
+            paths = plot_all(args.results, args.outdir, tuple(x.strip() for x in args.format.split(",")))
+            for pth in paths:
+                print(pth)
+            return 0
+        if args.command == "animate":
+            from .animate import animate
+
+            print(animate(args.results, args.output, args.component, fps=args.fps, energy=args.energy))
+            return 0
+        if args.command == "demo":
+            return _demo(args)
+    except ScenarioError as exc:
+        print(f"gapwake: scenario error:\n{exc}", file=sys.stderr)
+        return 2
+    except FileNotFoundError as exc:
+        print(f"gapwake: {exc}", file=sys.stderr)
+        return 2
+    except GapwakeError as exc:
+        print(f"gapwake: {type(exc).__name__}: {exc}", file=sys.stderr)
+        return 1
+    return 0
+
+
+def _demo(args) -> int:
+    from pathlib import Path
+
+    from . import api
+    from .animate import animate
+    from .plotting import plot_all
+
+    here = Path(__file__).resolve().parent.parent / "scenarios" / "demo_dipole_above_lorentz.toml"
+    if not here.exists():
+        from importlib import resources
+
+        here = Path(str(resources.files("fdtd") / "data" / "demo_dipole_above_lorentz.toml"))
+    out = Path(args.outdir)
+    out.mkdir(parents=True, exist_ok=True)
+    sc = api.load(here)
+    print(f"running {here.name} (a dipole gliding above a lossy Lorentz half-space) ...")
+    res = api.run(sc, out / "demo.h5", progress=None if not args.quiet else False,
+                  log=(lambda m: None) if args.quiet else (lambda m: print(m, file=sys.stderr)))
+    _print_summary(res)
+    figs = plot_all(res.file, out / "figures", ("png",))
+    movie = animate(res.file, out / "demo.gif")
+    print("figures:\n  " + "\n  ".join(figs))
+    print(f"animation: {movie}")
     return 0
 
 

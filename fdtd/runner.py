@@ -86,6 +86,7 @@ class Plan:
     reference: bool
     checkpoint_every: int
     threads: int | None
+    passage_span: tuple | None
     subsamples: int
     surfaces: list = field(default_factory=list)
     warnings: list = field(default_factory=list)
@@ -174,6 +175,9 @@ def plan(res: Resolved) -> Plan:
     _pl, _stack, surfaces, _bg = _placements(res)
     warn, notes = [], list(res.notes)
     height = res.L(s["height"])
+    if s.get("gap_fraction") is not None:
+        g = v["geometry"]
+        height = res.L(g["surface"]) + s["gap_fraction"] * res.L(g["gap"])
     # --- cell size
     media = [m for m in res.materials.values()]
     if grid.get("cell") is not None:
@@ -197,8 +201,12 @@ def plan(res: Resolved) -> Plan:
     nx = max(int(round(length / cell)), 8)
     if run["kind"] == "comoving":
         if s["kind"] == "dipole":
+            asked = length
             length = light_line_safe_length(length, length / nx, speed, Omega)
             nx = int(round(length / (length / nx)))
+            if abs(length - asked) > 1e-9 * asked:
+                notes.append(f"cell length adjusted from {asked * res.ell:.4g} m to {length * res.ell:.4g} m "
+                             "so that no harmonic sits on the vacuum light-line crossing of a Doppler line")
         cell = length / nx
     half_height = res.L(grid["height"]) if grid.get("height") is not None else \
         max(2.0 * max([abs(height)] + [abs(y) for y in surfaces]) + 1.0, 2.0)
@@ -228,6 +236,8 @@ def plan(res: Resolved) -> Plan:
              line_component=rec.get("line_component"), line_height=res.L(rec.get("line_height")),
              line_every=rec["line_every"], doppler=rec["doppler"], reference=rec["reference"],
              checkpoint_every=run["checkpoint_every"], threads=grid.get("threads"),
+             passage_span=(res.L(rec["passage_start"]), res.L(rec["passage_stop"]))
+             if rec.get("passage_start") is not None and rec.get("passage_stop") is not None else None,
              subsamples=grid["subsamples"], surfaces=surfaces, warnings=warn, notes=notes)
     _plan_warnings(p, res)
     return p
@@ -503,9 +513,14 @@ class PointRunner:
         if p.kind == "open" and p.speed > 0 and p.polarization != "1d":
             # columns passed while the motion is uniform, well inside the domain
             g = self.model.grid
-            x_lo = max(p.x0 + p.speed * (p.speed_ramp + 0.2 * p.open_time), g.origin[0] + 0.3 * p.length)
-            x_hi = p.x0 + p.speed * p.open_time - 0.2 * p.open_time * p.speed
-            half = 0.15 * (x_hi - x_lo)
+            if p.passage_span is not None:
+                x_lo, x_hi = p.passage_span
+                half = min(0.15 * (x_hi - x_lo), 0.5 * (x_lo - p.x0))
+                x_lo, x_hi = x_lo - half, x_hi + half
+            else:
+                x_lo = max(p.x0 + p.speed * (p.speed_ramp + 0.2 * p.open_time), g.origin[0] + 0.3 * p.length)
+                x_hi = p.x0 + p.speed * p.open_time - 0.2 * p.open_time * p.speed
+                half = 0.15 * (x_hi - x_lo)
             if x_hi - x_lo > 4 * p.cell and (p.Omega == 0 or (x_hi - x_lo) / p.speed > 2 * math.pi / p.Omega):
                 try:
                     self.passage_rec = PassageWorkRecorder(s, self.source, p.speed, p.Omega, x_lo + half,
@@ -713,6 +728,13 @@ def write_point(group, runner: PointRunner, data: dict) -> None:
     geo.attrs["surfaces"] = np.array(p.surfaces, dtype=float)
     geo.attrs["source_height"] = p.height
     geo.attrs["kind"] = runner.scenario.values["geometry"]["kind"]
+    model = runner.model
+    comp = model.grid.e_components[0]
+    dom = np.array([int(np.argmax(m.fractions)) if not m.is_wall else -1 for m in model.mixtures], dtype=np.int16)
+    mat_map = dom[model.mix_maps[comp]].astype(np.int8)
+    R.put(geo, "material_map", mat_map, "dimensionless", u,
+          f"index of the dominant material at each {comp} node (-1: conducting wall)")
+    geo.attrs["material_names"] = json.dumps([m.name for m in model.materials])
     for k, pl in enumerate(runner.model.placements):
         for j, line in enumerate(pl.region.outline()):
             R.put(geo, f"outline_{k}_{j}", line, "length", u, "region outline (x, y)")

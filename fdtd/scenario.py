@@ -122,6 +122,8 @@ SCHEMA = {
         "shape_scale": Key("int", False, default=2, lo=1),
         "max_frequency": Key("angular_frequency", False, lo=0.0, lo_open=True,
                              doc="charges: highest frequency of interest (for the grid)"),
+        "gap_fraction": Key("number", False, lo=0.0, hi=1.0, lo_open=True, hi_open=True,
+                            doc="slot geometry: height as a fraction of the gap (overrides height)"),
     },
     "run": {
         "kind": Key("choice", False, default="comoving", choices=("comoving", "open")),
@@ -140,6 +142,8 @@ SCHEMA = {
         "line_component": Key("str", False, doc="record this component on a line (k-omega map)"),
         "line_height": Key("length", False, doc="y of that line"),
         "line_every": Key("int", False, default=2, lo=1),
+        "passage_start": Key("length", False, doc="open domain: start of the column span analysed"),
+        "passage_stop": Key("length", False, doc="open domain: end of that span"),
     },
     "scan": {
         "key": Key("str", True, doc='key path to vary, e.g. "source.speed"'),
@@ -386,6 +390,8 @@ class Scenario:
         if s["speed"] is not None and s["speed"] <= 0 and v["run"]["kind"] == "comoving":
             self._fail("source.speed", self.raw.get("source", {}).get("speed"),
                        "a speed > 0 for a co-moving cell")
+        if s.get("gap_fraction") is not None and g["kind"] != "slot":
+            self._fail("source.gap_fraction", s["gap_fraction"], 'a "slot" geometry (or use source.height)')
         grid = v["grid"]
         if grid.get("cell") is None and grid.get("cells_per_wavelength") is None:
             grid["cells_per_wavelength"] = 20.0

@@ -1,0 +1,158 @@
+"""The Python API: load a scenario, change parameters, check, run, read results as arrays.
+
+    import fdtd.api as gw
+    sc = gw.load("scenarios/polar_crystal_glide.toml").set("source.speed", "0.4 c")
+    print(gw.check(sc).text)
+    out = gw.run(sc, "glide.h5")
+    with gw.open_results(out.file) as r:
+        kx, power = r.array("doppler/kx"), r.array("doppler/power")
+
+The command line (``gapwake``) is a thin layer over these functions.
+"""
+
+from __future__ import annotations
+
+import math
+import time
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .results import Results
+from .runner import PointRunner, plan, run_scenario
+from .scenario import Scenario
+
+
+def load(path) -> Scenario:
+    """Read and validate a scenario file (raises ScenarioError with every problem found)."""
+    return Scenario.load(path)
+
+
+def open_results(path, point: int | None = None) -> Results:
+    """Open a results file (numpy arrays out; ``point`` selects a scan point)."""
+    return Results(path, point)
+
+
+@dataclass
+class CheckReport:
+    rows: list = field(default_factory=list)
+    warnings: list = field(default_factory=list)
+    notes: list = field(default_factory=list)
+
+    @property
+    def text(self) -> str:
+        width = max((len(k) for k, _v in self.rows), default=10)
+        lines = [f"  {k:<{width}}  {v}" for k, v in self.rows]
+        lines += [f"  warning: {w}" for w in self.warnings]
+        lines += [f"  note: {n}" for n in self.notes]
+        return "\n".join(lines)
+
+
+_RATE_CACHE: dict = {}
+
+
+def calibrate(polarization: str, poles: int) -> float:
+    """Cell updates per second of this machine for a small grid (measured once per process)."""
+    key = (polarization, poles)
+    if key in _RATE_CACHE:
+        return _RATE_CACHE[key]
+    import fdtd as f
+
+    shape = (96,) if polarization == "1d" else (96, 96)
+    g = f.Grid(shape, (0.1,) * len(shape), polarization)
+    mat = f.Material(2.0, tuple(f.LorentzPole(1.0, 1.0 + k, 0.1) for k in range(poles)))
+    s = f.Solver(f.Model(g, background=mat, edges=f.CPML(8)), ledger=True, threads=1)
+    s.step(3)
+    t0 = time.perf_counter()
+    s.step(40)
+    rate = g.n_cells * 40 / (time.perf_counter() - t0)
+    _RATE_CACHE[key] = rate
+    return rate
+
+
+def check(scenario: Scenario) -> list[CheckReport]:
+    """Resolved grid, estimates and warnings for each scan point."""
+    reports = []
+    for pt in scenario.scan_points():
+        res = pt.resolve()
+        p = plan(res)
+        rep = CheckReport(warnings=list(p.warnings), notes=list(p.notes))
+        r = PointRunner(pt, progress=False)          # builds model and solver (no stepping)
+        s = r.solver
+        ell = res.ell
+        cells = s.grid.n_cells
+        steps = r._record_steps()
+        if p.kind == "comoving":
+            ramp = int(math.ceil((p.ramp / math.sqrt(1 - p.speed**2) + p.speed_ramp) / s.dt))
+            settle_typ = 10 * r.steps_transit
+            settle_max = int(max(p.max_time / s.dt - ramp, 0))
+            steps_typ, steps_max = ramp + settle_typ + steps, ramp + settle_max + steps
+        else:
+            steps_typ = steps_max = steps
+        arrays = sum(a.nbytes for a in s.fields.values()) + sum(P.nbytes + Po.nbytes for P, Po in
+                                                               s.polarization.values())
+        rate = calibrate(p.polarization, r.model.max_poles) * (1.6 if s.threads > 1 else 1.0)
+        t_typ, t_max = cells * steps_typ / rate, cells * steps_max / rate
+        rep.rows += [
+            ("point", pt.where),
+            ("run", f"{p.kind} cell" if p.kind == "comoving" else "open domain"),
+            ("grid", f"{p.polarization.upper()} {' x '.join(map(str, s.grid.shape))} = {cells:,} cells, "
+                     f"cell {p.cell * ell * 1e9:.4g} nm"),
+            ("extent", f"{s.grid.extent[0] * ell * 1e6:.4g} um"
+             + (f" x {s.grid.extent[1] * ell * 1e6:.4g} um" if s.grid.dims == 2 else "")
+             + f", absorbing layers {p.absorber * ell * 1e9:.4g} nm"),
+            ("time step", f"{s.dt * ell / 2.998e8 * 1e18:.4g} as (Courant number {s.courant_number:.3f}, "
+                          f"{s.dt / s.model.max_stable_dt():.0%} of the Yee + ADE limit)"),
+            ("source", f"{p.source_kind}, v = {p.speed:.4g} c, height {p.height * ell * 1e9:.4g} nm"
+             + (f", rest frequency {p.omega0 * 2.998e8 / ell:.4g} rad/s (lab {p.Omega * 2.998e8 / ell:.4g})"
+                if p.omega0 else "")),
+            ("steps", f"about {steps_typ:,} (at most {steps_max:,})" if steps_typ != steps_max else f"{steps_typ:,}"),
+            ("memory", f"{arrays / 2**20:.0f} MiB of field and polarization arrays"),
+            ("run time", f"about {_fmt_time(t_typ)}" + (f" (at most {_fmt_time(t_max)})" if t_max > 1.5 * t_typ
+                                                         else "") + f", calibrated at {rate / 1e6:.0f} Mcell/s"),
+        ]
+        reports.append(rep)
+    return reports
+
+
+def _fmt_time(t: float) -> str:
+    if t < 90:
+        return f"{t:.0f} s"
+    if t < 5400:
+        return f"{t / 60:.0f} min"
+    return f"{t / 3600:.1f} h"
+
+
+@dataclass
+class RunOutput:
+    file: str
+    status: str
+    stop_reason: str
+    points: list
+
+    @property
+    def summary(self) -> dict:
+        return self.points[0] if len(self.points) == 1 else {"points": self.points}
+
+    def value(self, name: str, point: int = 0, normalized: bool = False) -> float:
+        v = self.points[point][name]
+        return v["normalized"] if normalized else v["value"]
+
+
+def run(scenario, out=None, progress: bool | None = None, checkpoint=None, resume=None, log=None) -> RunOutput:
+    """Run a scenario (a Scenario or a path) and write the results file."""
+    sc = scenario if isinstance(scenario, Scenario) else load(scenario)
+    r = run_scenario(sc, out=out, progress=progress, checkpoint=checkpoint, resume=resume,
+                     log=log or (lambda msg: None))
+    return RunOutput(r["file"], r["status"], r["stop_reason"], r["points"])
+
+
+def as_arrays(path, point: int | None = None) -> dict:
+    """All datasets of a results file (one point) as a flat dict of numpy arrays."""
+    out = {}
+    with Results(path, point) as r:
+        def visit(name, obj):
+            if hasattr(obj, "shape"):
+                out[name] = np.asarray(obj)
+        r.root.visititems(visit)
+    return out
