@@ -21,5 +21,16 @@ __all__ = [
     "ParameterError", "ShapeError", "StabilityError", "Everywhere", "HalfSpace", "Polygon",
     "Rectangle", "Slab", "Grid", "VACUUM", "DrudePole", "LorentzPole", "Material",
     "lorentz_material", "Model", "Solver", "ContinuousWave", "GaussianPulse", "PrescribedCurrent",
-    "line_current", "UnitSystem",
+    "line_current", "UnitSystem", "load", "check", "run", "open_results", "as_arrays",
 ]
+
+_API = ("load", "check", "run", "open_results", "as_arrays")
+
+
+def __getattr__(name):
+    # The scenario API pulls in pint, h5py and the runner: load it on first use only.
+    if name in _API:
+        from . import api
+
+        return getattr(api, name)
+    raise AttributeError(f"module 'fdtd' has no attribute {name!r}")

@@ -191,6 +191,9 @@ class EnergyLedger:
         return s.bath_rows.sum(axis=0)[: self.n_gid] * s.model.grid.cell_volume / (4.0 * s.dt)
 
     def sample(self) -> LedgerSample:
+        """Record the balance now (once per step: a second call at the same step returns the first)."""
+        if self.samples and self.samples[-1].step == self.solver.step_count:
+            return self.samples[-1]
         we, wh, wx, wp = self.stored_energy()
         smp = LedgerSample(self.solver.step_count, self.solver.time, we, wh, wx, wp,
                            self.source_work, self.bath_heat(), self.outflow)

@@ -434,6 +434,15 @@ class PlanarReference:
         half-node shape for a dipole along y (its P_y sits on half nodes in y).
         """
         half_y = source.kind == "dipole" and source.axis == "y"
+        reach = (shape.half_support + (0.5 if half_y else 0.0)) * cell
+        gaps = np.abs(stack.interfaces - source.height) if len(stack.interfaces) else np.array([np.inf])
+        if np.min(gaps) < reach:
+            # The transfer-matrix solution assumes the whole source lies in one layer;
+            # a deposit straddling an interface drives both media and has no planar twin.
+            raise GeometryError(
+                f"the source shape reaches {reach:.4g} (normalized length) from its path at height "
+                f"{source.height:.4g}, but an interface lies {np.min(gaps):.4g} away: the source overlaps "
+                "a material, so the planar reference does not apply (raise the height or refine the cell)")
         return cls(stack, source, form_factor=lambda k: shape.form_factor(k, cell),
                    vertical_form_factor=lambda q: shape.form_factor(q, cell, half=half_y), **kw)
 

@@ -54,6 +54,8 @@ QUANTITY = {
     "energy": (None, "energy", "normalized energy (per unit length in 2D, per unit area in 1D)"),
     "force": (None, "force", "normalized force (per unit length in 2D, per unit area in 1D)"),
     "field": ("V/m", "field", "normalized electric field (E0)"),
+    "magnetic_field": ("A/m", "magnetic_field", "normalized magnetic field (E0 / Z0)"),
+    "energy_density": (None, "energy_density", "normalized energy density (eps0 E0^2)"),
     "dimensionless": ("1", None, "dimensionless"),
 }
 
@@ -65,8 +67,9 @@ def si_of(units, quantity: str) -> tuple[str, float]:
     if attr is None:
         return si_name, 1.0
     if si_name is None:
-        si_name = {"power": "W/m", "energy": "J/m", "force": "N/m"}[quantity] if units.dims == 2 else \
-            {"power": "W/m^2", "energy": "J/m^2", "force": "N/m^2"}[quantity]
+        si_name = "J/m^3" if quantity == "energy_density" else (
+            {"power": "W/m", "energy": "J/m", "force": "N/m"}[quantity] if units.dims == 2 else
+            {"power": "W/m^2", "energy": "J/m^2", "force": "N/m^2"}[quantity])
     return si_name, float(getattr(units, attr))
 
 

@@ -165,6 +165,14 @@ def plan(res: Resolved) -> Plan:
     speed = float(s["speed"])
     pol = grid["polarization"]
     gam = 1.0 / math.sqrt(1 - speed * speed)
+    from .grid import E_COMPONENTS, H_COMPONENTS
+    from .quantities import ScenarioError
+
+    allowed = E_COMPONENTS[pol] + H_COMPONENTS[pol]
+    for key in ("snapshot_component", "line_component"):
+        if rec.get(key) is not None and rec[key] not in allowed:
+            raise ScenarioError(f"{res.scenario.where}: record.{key} = {rec[key]!r} is not a field of the "
+                                f"{pol.upper()} grid: expected one of {', '.join(allowed)}")
     if s["kind"] == "dipole":
         omega0 = res.W(s["frequency"])
         Omega = omega0 / gam
@@ -201,9 +209,9 @@ def plan(res: Resolved) -> Plan:
     nx = max(int(round(length / cell)), 8)
     if run["kind"] == "comoving":
         if s["kind"] == "dipole":
-            asked = length
-            length = light_line_safe_length(length, length / nx, speed, Omega)
-            nx = int(round(length / (length / nx)))
+            asked, cell_asked = length, length / nx
+            length = light_line_safe_length(length, cell_asked, speed, Omega)
+            nx = max(int(round(length / cell_asked)), 8)
             if abs(length - asked) > 1e-9 * asked:
                 notes.append(f"cell length adjusted from {asked * res.ell:.4g} m to {length * res.ell:.4g} m "
                              "so that no harmonic sits on the vacuum light-line crossing of a Doppler line")
@@ -225,6 +233,14 @@ def plan(res: Resolved) -> Plan:
     flux = [res.L(_q(y, res)) for y in rec.get("flux_heights") or ()]
     moment = (s["moment"] / res.units.dipole_moment) if s.get("moment") is not None else 1.0
     charge = (s["charge"] / res.units.charge) if s.get("charge") is not None else 1.0
+    order, scale = s["shape_order"], s["shape_scale"]
+    reach = (0.5 * (order + 1) * scale + 1.5) * cell
+    if abs(height) + reach > half_height:
+        raise ScenarioError(
+            f"{res.scenario.where}: source.height = {height * res.ell:.4g} m does not fit in the interior: "
+            f"grid.height = {half_height * res.ell:.4g} m must exceed |height| plus the source's reach "
+            f"({reach * res.ell:.4g} m with cell {cell * res.ell:.4g} m and shape {order}x{scale}); "
+            "raise grid.height or refine grid.cell")
     p = Plan(kind=run["kind"], polarization=pol, cell=cell, length=length, half_height=half_height,
              absorber=absorber, nx=nx, ny=ny, courant=grid["courant"], speed=speed, height=height,
              x0=res.L(s["x0"]), source_kind=s["kind"], omega0=omega0, Omega=Omega, axis=s["axis"],
@@ -270,6 +286,14 @@ def _plan_warnings(p: Plan, res: Resolved) -> None:
     if p.speed > lim:
         p.warnings.append(f"source speed {p.speed:.4g} c exceeds the grid's numerical vacuum phase velocity "
                           f"{lim:.4g} c at the wavenumbers it excites: numerical Cherenkov radiation")
+    half_y = p.source_kind == "dipole" and p.axis == "y"
+    reach = (shape.half_support + (0.5 if half_y else 0.0)) * p.cell
+    surfaces = _placements(res)[2]
+    if surfaces and min(abs(y - p.height) for y in surfaces) < reach:
+        p.warnings.append(f"the source's deposit reaches {reach * res.ell:.3g} m from its path, beyond the "
+                          f"nearest surface {min(abs(y - p.height) for y in surfaces) * res.ell:.3g} m away: "
+                          "the source overlaps a material (raise source.height or refine grid.cell); "
+                          "no planar reference for such a point")
     npml = max(int(round(p.absorber / p.cell)), 10)
     inner = p.half_height if p.kind == "comoving" else p.half_height
     margin = inner - abs(p.height)
@@ -471,7 +495,7 @@ class PointRunner:
         self.res = scenario.resolve()
         self.plan = plan(self.res)
         self.model, self.solver, self.source, self.stack = build(self.plan, self.res)
-        self.progress = progress
+        self.progress = sys.stderr.isatty() if progress is None else bool(progress)
         self.checkpoint = checkpoint
         self.log = log or (lambda msg: None)
         self.state = {"phase": "ramp", "settle_rates": [], "record_start_step": None, "steady": None,
@@ -567,7 +591,7 @@ class PointRunner:
         if s.ledger.samples == []:
             s.ledger.sample()
         block = self.steps_transit if p.kind == "comoving" else max(int(math.ceil(p.open_time / s.dt)) // 50, 1)
-        t_wall = time.perf_counter()
+        t_wall, step_wall = time.perf_counter(), s.step_count
         try:
             while st["phase"] != "done":
                 if stop_after_steps is not None and s.step_count >= stop_after_steps:
@@ -585,14 +609,16 @@ class PointRunner:
                 elif st["phase"] == "settle":
                     rate = self._settle_block()
                     st["settle_rates"].append(rate)
-                    self.log(f"  settling: t = {s.time:.4g}, dissipated power {rate:.6g} (normalized)")
+                    if not self.progress:
+                        self.log(f"  settling: t = {s.time * self.res.units.time * 1e15:.5g} fs, dissipated "
+                                 f"power {rate * self.res.units.power:.6g} {self._power_unit}")
                     if settled(st["settle_rates"], p.settle_tol):
                         st["steady"] = True
                     elif s.time >= p.max_time:
                         st["steady"] = False
                         warnings.warn(
                             f"{self.scenario.where}: the dissipated power did not settle to "
-                            f"run.settle_tolerance = {p.settle_tol:g} by t = {s.time:.4g} (normalized): "
+                            f"run.settle_tolerance = {p.settle_tol:g} by t = {s.time * self.res.units.time * 1e15:.5g} fs: "
                             "raise run.max_time, add loss, or accept a larger tolerance; the results "
                             "are marked partial", stacklevel=2)
                     if st["steady"] is not None:
@@ -609,13 +635,13 @@ class PointRunner:
                         continue
                     self._advance(n, extras=True)
                     s.ledger.sample()
-                    if p.kind == "open":
-                        self.log(f"  t = {s.time:.4g} of {p.open_time:.4g}")
+                    if p.kind == "open" and not self.progress:
+                        self.log(f"  t = {s.time * self.res.units.time * 1e15:.5g} fs of "
+                                 f"{p.open_time * self.res.units.time * 1e15:.5g} fs")
+                s.ledger.sample()       # one point per block (a transit), in every phase
                 self._maybe_checkpoint()
                 if self.progress:
-                    sys.stderr.write(f"\r  {st['phase']:7s} step {s.step_count}  t = {s.time:.4g}  "
-                                     f"{time.perf_counter() - t_wall:.0f} s ")
-                    sys.stderr.flush()
+                    self._show_progress(t_wall, step_wall)
         except KeyboardInterrupt:
             st["interrupted"] = True
             return "interrupted"
@@ -623,6 +649,34 @@ class PointRunner:
             if self.progress:
                 sys.stderr.write("\n")
         return "completed"
+
+    @property
+    def _power_unit(self) -> str:
+        return "W/m^2" if self.plan.polarization == "1d" else "W/m"
+
+    def expected_steps(self) -> int:
+        """Best current guess of the total step count (the settling length is only known at the end)."""
+        p, s, st = self.plan, self.solver, self.state
+        if p.kind == "open":
+            return self._record_steps()
+        n_ramp = int(math.ceil((p.ramp / math.sqrt(1 - p.speed**2) + p.speed_ramp) / s.dt))
+        if st["record_start_step"] is not None:
+            return st["record_start_step"] + self._record_steps()
+        settle = max(len(st["settle_rates"]) + 1, 6) * self.steps_transit
+        return n_ramp + settle + self._record_steps()
+
+    def _show_progress(self, t_wall: float, step_wall: int) -> None:
+        s, st = self.solver, self.state
+        total = max(self.expected_steps(), s.step_count)
+        elapsed = time.perf_counter() - t_wall
+        done = s.step_count - step_wall
+        left = elapsed / done * (total - s.step_count) if done > 0 else float("nan")
+        frac = s.step_count / total
+        bar = "#" * int(24 * frac) + "-" * (24 - int(24 * frac))
+        t_si = s.time * self.res.units.time
+        sys.stderr.write(f"\r  [{bar}] {st['phase']:6s} step {s.step_count:,}/~{total:,}  "
+                         f"t = {t_si * 1e15:.4g} fs  elapsed {elapsed:.0f} s  left ~{left:.0f} s ")
+        sys.stderr.flush()
 
     def _settle_block(self) -> float:
         s = self.solver
@@ -679,7 +733,7 @@ class PointRunner:
         if self.flux_rec is not None and self.flux_rec.wsum[0] > 0:
             out["fluxes"] = self.flux_rec.result()
             for y, fl in zip(p.flux_heights, out["fluxes"]):
-                fig(f"flux_up_at_{y:.4g}", fl.total, "power")
+                fig(f"flux_up_at_{y * self.res.ell * 1e9:.4g}nm", fl.total, "power")
         if self.passage_rec is not None and np.all(self.passage_rec.filled == self.passage_rec.n_win):
             spec = self.passage_rec.result()
             out["spectrum"] = spec
@@ -714,6 +768,10 @@ class PointRunner:
         summary["steps"] = {"value": s.step_count, "error": None, "units": "", "normalized": s.step_count}
         out["summary"] = summary
         return out
+
+
+def _field_quantity(component: str) -> str:
+    return {"E": "field", "H": "magnetic_field"}.get(component[:1], "energy_density")
 
 
 def write_point(group, runner: PointRunner, data: dict) -> None:
@@ -773,7 +831,7 @@ def write_point(group, runner: PointRunner, data: dict) -> None:
     if runner.snaps:
         sg = group.require_group("snapshots")
         c = p.snapshot_component
-        R.put(sg, c, np.array(runner.snaps), "field" if c.startswith("E") else "field", u,
+        R.put(sg, c, np.array(runner.snaps), _field_quantity(c), u,
               f"{c} snapshots (H in units of E0/eta0)")
         R.put(sg, "time", runner.snap_times, "time", u)
         R.put(sg, "x", runner.model.grid.axis_coordinates(c, 0), "length", u)
@@ -782,7 +840,7 @@ def write_point(group, runner: PointRunner, data: dict) -> None:
         sg.attrs["component"] = c
     if runner.line_rows:
         lg = group.require_group("line")
-        R.put(lg, "data", np.array(runner.line_rows), "field", u, f"{p.line_component} on a line over time")
+        R.put(lg, "data", np.array(runner.line_rows), _field_quantity(p.line_component), u, f"{p.line_component} on a line over time")
         R.put(lg, "time", runner.line_times, "time", u)
         R.put(lg, "x", runner.model.grid.axis_coordinates(p.line_component, 0), "length", u)
         lg.attrs.update({"component": p.line_component, "height": p.line_height or 0.0,

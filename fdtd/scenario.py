@@ -168,6 +168,23 @@ REGION_KEYS = {
 }
 
 
+_SI_UNIT = {"length": "m", "time": "s", "angular_frequency": "rad/s", "rate": "1/s", "speed": "c",
+            "charge_per_length": "C/m", "dipole_per_length": "C"}
+
+
+def _allowed_range(spec: Key) -> str:
+    """E.g. "a speed (fraction of c below 1) in 0 <= value < 1 c"."""
+    parts = []
+    if spec.lo is not None:
+        parts.append(f"{spec.lo:g} {'<' if spec.lo_open else '<='} ")
+    parts.append("value")
+    if spec.hi is not None:
+        parts.append(f" {'<' if spec.hi_open else '<='} {spec.hi:g}")
+    unit = _SI_UNIT.get(spec.kind, "")
+    what = f"{spec.doc} " if spec.doc else ""
+    return f"{what}in {''.join(parts)}{(' ' + unit) if unit else ''}"
+
+
 # ----------------------------------------------------------------------------- loading
 class Scenario:
     """A scenario file (or dict) with its validated, SI-converted values.
@@ -276,11 +293,10 @@ class Scenario:
             self.errors.append(str(exc))
             return spec.default
         lo, hi = spec.lo, spec.hi
-        cmp = x
-        if lo is not None and (cmp < lo or (spec.lo_open and cmp == lo)):
-            self._fail(path, value, f"a value {'>' if spec.lo_open else '>='} {lo:g} (SI)")
-        if hi is not None and (cmp > hi or (spec.hi_open and cmp == hi)):
-            self._fail(path, value, f"a value < {hi:g}" if kind == "speed" else f"a value <= {hi:g}")
+        low_bad = lo is not None and (x < lo or (spec.lo_open and x == lo))
+        high_bad = hi is not None and (x > hi or (spec.hi_open and x == hi))
+        if low_bad or high_bad:
+            self._fail(path, value, _allowed_range(spec))
         return x
 
     def _validate(self) -> None:

@@ -1,0 +1,452 @@
+"""Scenario files, the command line, the results file, plots and animations.
+
+The scenario used here is a small case of our own (an invented single-resonance
+dielectric); it runs in about a second.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import re
+import signal
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+import h5py
+import numpy as np
+import pytest
+
+import fdtd
+from fdtd.cli import main
+from fdtd.runner import PointRunner
+
+ROOT = Path(__file__).resolve().parents[1]
+
+TINY = """\
+[units]
+length = "164.4 nm"
+
+[materials.m]
+kind = "poles"
+eps_inf = 1.0
+poles = [ { kind = "lorentz", delta_eps = 2.0, omega = "1.0 eV", gamma = "0.1 eV" } ]
+
+[geometry]
+kind = "half-space"
+material = "m"
+
+[grid]
+cell = "20 nm"
+length = "600 nm"
+height = "300 nm"
+
+[source]
+kind = "dipole"
+speed = "0.6 c"
+height = "150 nm"
+frequency = "1.2 eV"
+
+[run]
+transits = 2
+
+[record]
+flux_heights = ["250 nm", "0 nm"]
+snapshots = 5
+line_component = "Hz"
+line_height = "200 nm"
+"""
+
+
+def write(tmp_path, text, name="case.toml") -> Path:
+    p = tmp_path / name
+    p.write_text(text)
+    return p
+
+
+def edit(text: str, old: str, new: str) -> str:
+    assert old in text, old
+    return text.replace(old, new, 1)
+
+
+@pytest.fixture(scope="module")
+def tiny_run(tmp_path_factory):
+    d = tmp_path_factory.mktemp("tiny")
+    path = write(d, TINY)
+    out = fdtd.run(path, d / "tiny.h5", progress=False)
+    return d, path, Path(out.file), out
+
+
+# ----------------------------------------------------------------------------- schema errors
+MISSING = [
+    ('length = "600 nm"\n', "", "grid.length is missing"),
+    ('kind = "dipole"\n', "", "source.kind is missing"),
+    ('speed = "0.6 c"\n', "", "source.speed is missing"),
+    ('kind = "poles"\n', "", "materials.m.kind is missing"),
+    ('{ kind = "lorentz", ', "{ ", "poles[0].kind is missing"),
+]
+
+WRONG_TYPE = [
+    ('speed = "0.6 c"', "speed = true", "source.speed = True"),
+    ('length = "600 nm"', "length = [1, 2]", "grid.length = [1, 2]"),
+    ("snapshots = 5", 'snapshots = "many"', "record.snapshots = 'many': expected an integer"),
+    ("transits = 2", "transits = 2.5", "run.transits = 2.5: expected an integer"),
+    ('material = "m"', "material = 3", "geometry.material = 3: expected a string"),
+    ("[run]\n", "[run]\ncourant = 1\n", "unknown key 'run.courant'"),
+    ("[record]\n", "[record]\ndoppler = \"yes\"\n", "record.doppler = 'yes': expected true or false"),
+    ("poles = [", "poles = 3 #", "materials.m.poles = 3: expected a list"),
+]
+
+OUT_OF_RANGE = [
+    ('speed = "0.6 c"', 'speed = "1.2 c"', "source.speed = '1.2 c'", "value < 1"),
+    ('speed = "0.6 c"', 'speed = "-0.1 c"', "source.speed = '-0.1 c'", "0 <= value"),
+    ('cell = "20 nm"', 'cell = "-5 nm"', "grid.cell = '-5 nm'", "0 < value"),
+    ("[grid]\n", "[grid]\ncourant = 1.5\n", "grid.courant = 1.5", "value <= 1"),
+    ("[grid]\n", "[grid]\ncourant = 0.0\n", "grid.courant = 0.0", "0 < value"),
+    ("snapshots = 5", "snapshots = -1", "record.snapshots = -1", "0 <= value"),
+    ("[source]\n", "[source]\nshape_order = 4\n", "source.shape_order = 4", "value <= 3"),
+    ('gamma = "0.1 eV"', 'gamma = "-0.1 eV"', "gamma = '-0.1 eV'", "0 <= value"),
+    ("delta_eps = 2.0", "delta_eps = -2.0", "delta_eps = -2.0", "0 <= value"),
+    ('kind = "half-space"', 'kind = "halfspace"', "geometry.kind = 'halfspace'", "did you mean 'half-space'"),
+]
+
+UNKNOWN = [
+    ('length = "600 nm"', 'lenght = "600 nm"', "unknown key 'grid.lenght' (did you mean 'length'?)"),
+    ("[source]", "[sorce]", "did you mean 'source'"),
+    ('height = "150 nm"', 'heigth = "150 nm"', "did you mean 'height'"),
+]
+
+BAD_UNITS = [
+    ('length = "600 nm"', 'length = "40 parsecs per fortnight"', "grid.length = '40 parsecs per fortnight'"),
+    ('frequency = "1.2 eV"', 'frequency = "3 furlongs"', "source.frequency = '3 furlongs'"),
+    ('speed = "0.6 c"', 'speed = "fast"', "source.speed = 'fast'"),
+    ('cell = "20 nm"', 'cell = "20 blorbs"', "grid.cell = '20 blorbs'"),
+]
+
+CROSS = [
+    ('material = "m"', 'material = "glass"', "geometry.material = 'glass'"),
+    ('line_component = "Hz"', 'line_component = "Bz"', "record.line_component = 'Bz'"),
+]
+
+
+def _expect_rejected(tmp_path, capsys, text, *fragments):
+    path = write(tmp_path, text)
+    out = tmp_path / "never.h5"
+    for cmd in (["check", str(path)], ["run", str(path), "-o", str(out)]):
+        rc = main(cmd)
+        err = capsys.readouterr().err
+        assert rc == 2, (cmd, err)
+        assert str(path.name) in err, err         # the file is named
+        for frag in fragments:
+            assert frag in err, (frag, err)
+    assert list(tmp_path.glob("never.h5*")) == []  # nothing written
+
+
+@pytest.mark.parametrize("old,new,msg", MISSING)
+def test_missing_required_key(tmp_path, capsys, old, new, msg):
+    _expect_rejected(tmp_path, capsys, edit(TINY, old, new), msg)
+
+
+@pytest.mark.parametrize("old,new,msg", WRONG_TYPE)
+def test_wrong_type(tmp_path, capsys, old, new, msg):
+    _expect_rejected(tmp_path, capsys, edit(TINY, old, new), msg)
+
+
+@pytest.mark.parametrize("old,new,msg,allowed", OUT_OF_RANGE)
+def test_out_of_range(tmp_path, capsys, old, new, msg, allowed):
+    _expect_rejected(tmp_path, capsys, edit(TINY, old, new), msg, allowed)
+
+
+@pytest.mark.parametrize("old,new,msg", UNKNOWN)
+def test_unknown_key_suggests(tmp_path, capsys, old, new, msg):
+    _expect_rejected(tmp_path, capsys, edit(TINY, old, new), msg)
+
+
+@pytest.mark.parametrize("old,new,msg", BAD_UNITS)
+def test_bad_unit_strings(tmp_path, capsys, old, new, msg):
+    _expect_rejected(tmp_path, capsys, edit(TINY, old, new), msg)
+
+
+@pytest.mark.parametrize("old,new,msg", CROSS)
+def test_cross_checks(tmp_path, capsys, old, new, msg):
+    _expect_rejected(tmp_path, capsys, edit(TINY, old, new), msg)
+
+
+def test_all_errors_reported_at_once(tmp_path, capsys):
+    text = edit(edit(TINY, 'speed = "0.6 c"', 'speed = "2 c"'), 'cell = "20 nm"', 'cel = "20 nm"')
+    _expect_rejected(tmp_path, capsys, text, "source.speed", "grid.cel")
+
+
+def test_not_toml_and_missing_file(tmp_path, capsys):
+    _expect_rejected(tmp_path, capsys, "this is = = not toml", "not valid TOML")
+    assert main(["check", str(tmp_path / "absent.toml")]) == 2
+    assert "absent.toml" in capsys.readouterr().err
+
+
+def test_set_override_is_validated(tmp_path, capsys):
+    path = write(tmp_path, TINY)
+    assert main(["check", str(path), "--set", 'source.speed="3 c"']) == 2
+    assert "source.speed" in capsys.readouterr().err
+    assert main(["check", str(path), "--set", "nosuchkey"]) == 2
+
+
+def test_check_prints_resolved_grid_and_estimates(tmp_path, capsys):
+    path = write(tmp_path, TINY)
+    assert main(["check", str(path)]) == 0
+    out = capsys.readouterr().out
+    for word in ("cells", "time step", "Courant", "steps", "memory", "run time"):
+        assert word in out, (word, out)
+
+
+def test_check_warns_on_coarse_grid_and_overlap(tmp_path, capsys):
+    text = edit(edit(TINY, 'cell = "20 nm"', 'cell = "40 nm"'), 'height = "150 nm"', 'height = "60 nm"')
+    path = write(tmp_path, text)
+    assert main(["check", str(path)]) == 0      # warnings are not errors
+    out = capsys.readouterr().out
+    assert "cells per wavelength" in out
+    assert "overlaps a material" in out
+
+
+# ----------------------------------------------------------------------------- results file
+def _doc_table():
+    """(regex, si_units) rows of the dataset table in docs/results.md."""
+    rows = []
+    for line in (ROOT / "docs" / "results.md").read_text().splitlines():
+        m = re.match(r"\| `([a-z_<>/0-9A-Za-z]+)` \| [^|]+ \| ([^|]+) \|", line)
+        if m and "/" in m.group(1):
+            pat = re.escape(m.group(1))
+            pat = pat.replace("<k>", r"\d+").replace("<name>", r"[^/]+").replace("<component>", "[EH][xyz]")
+            units = {u.strip() for u in m.group(2).split(" or ")}
+            rows.append((re.compile(pat + "$"), units))
+    return rows
+
+
+def test_results_layout_matches_documentation(tiny_run):
+    _d, _p, h5, _out = tiny_run
+    rows = _doc_table()
+    assert len(rows) > 20
+    seen = []
+    with h5py.File(h5, "r") as f:
+        assert f.attrs["format"] == "gapwake-results"
+        assert f.attrs["status"] == "complete"
+        assert "[source]" in f["scenario"].attrs["text"]
+        units = f["units"].attrs
+
+        def visit(name, obj):
+            if not isinstance(obj, h5py.Dataset):
+                return
+            seen.append(name)
+            match = [u for rx, u in rows if rx.match(name)]
+            assert match, f"{name} is not documented in docs/results.md"
+            assert obj.attrs["si_units"] in match[0], (name, obj.attrs["si_units"], match[0])
+            for a in ("units", "si_units", "si_factor", "description"):
+                assert a in obj.attrs, (name, a)
+        f.visititems(visit)
+        for must in ("ledger/time", "ledger/stored", "ledger/source_work", "ledger/bath", "ledger/outflow",
+                     "doppler/power", "reference/power_normal", "snapshots/Hz", "line/data",
+                     "geometry/material_map"):
+            assert must in seen, must
+        # conversion factors agree with /units
+        assert f["snapshots/x"].attrs["si_factor"] == pytest.approx(units["length"])
+        assert f["ledger/time"].attrs["si_factor"] == pytest.approx(units["time"])
+        assert f["doppler/power"].attrs["si_factor"] == pytest.approx(units["power"])
+        # H is stored in units of E0/Z0 (Z0 from scipy.constants)
+        import scipy.constants as sc
+        z0 = sc.mu_0 * sc.c
+        assert f["snapshots/Hz"].attrs["si_factor"] == pytest.approx(units["field"] / z0, rel=1e-9)
+        assert np.all(np.diff(f["ledger/time"][:]) > 0)
+        summary = json.loads(f["summary"].attrs["json"])
+    for key in ("total_power", "normal_power", "anomalous_power", "drag_force", "ledger_residual"):
+        assert key in summary and "units" in summary[key]
+    assert summary["total_power"]["units"] == "W/m"
+    assert summary["drag_force"]["units"] == "N/m"
+
+
+def test_results_values_are_physical(tiny_run):
+    """Energy balance and branch sum of the small run (its own internal consistency)."""
+    _d, _p, _h5, out = tiny_run
+    s = out.summary
+    assert abs(s["ledger_residual"]["value"]) < 1e-9
+    tot, nrm, ano = (s[k]["value"] for k in ("total_power", "normal_power", "anomalous_power"))
+    assert tot == pytest.approx(nrm + ano, rel=1e-9)
+    # sim vs the planar reference: only two transits, so compare within the run's own error bar
+    ref = s["reference_total_power"]["value"]
+    assert abs(tot - ref) < 3 * s["total_power"]["error"] + 0.05 * ref
+
+
+def test_api_reads_arrays_and_changes_parameters(tiny_run, tmp_path):
+    _d, path, h5, _out = tiny_run
+    arrays = fdtd.as_arrays(h5)
+    assert arrays["snapshots/Hz"].shape[0] == 5
+    with fdtd.open_results(h5) as r:
+        assert r.status == "complete"
+        assert r.array("doppler/kx").shape == r.array("doppler/power").shape
+    sc = fdtd.load(path).set("source.speed", "0.3 c").set("record.snapshots", 0)
+    out = fdtd.run(sc, tmp_path / "slow.h5", progress=False)
+    assert out.value("speed") == pytest.approx(0.3)
+    assert "snapshots" not in fdtd.as_arrays(out.file)
+    reports = fdtd.check(sc)
+    assert reports and "cells" in reports[0].text
+
+
+def test_json_summary(tmp_path, capsys):
+    path = write(tmp_path, edit(TINY, "snapshots = 5", "snapshots = 0"))
+    assert main(["run", str(path), "-o", str(tmp_path / "a.h5"), "--json"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    assert data["status"] == "complete"
+    p = data["points"][0]
+    for key in ("total_power", "normal_power", "anomalous_power", "drag_force", "ledger_residual"):
+        assert set(p[key]) >= {"value", "error", "units"}
+
+
+def test_failed_write_leaves_no_complete_file(tmp_path, monkeypatch):
+    import fdtd.runner as runner
+
+    def broken(*a, **k):
+        raise OSError("disk full (simulated)")
+    monkeypatch.setattr(runner, "write_point", broken)
+    path = write(tmp_path, edit(TINY, "snapshots = 5", "snapshots = 0"))
+    with pytest.raises(OSError):
+        fdtd.run(path, tmp_path / "r.h5", progress=False)
+    assert not (tmp_path / "r.h5").exists()
+    with h5py.File(tmp_path / "r.h5.incomplete", "r") as f:
+        assert f.attrs["status"] != "complete"
+
+
+def _long_case(tmp_path) -> Path:
+    # a tighter tolerance and many transits keep it running for well over the time we wait
+    text = edit(edit(TINY, "transits = 2", "transits = 400\nsettle_tolerance = 1e-9"),
+                'cell = "20 nm"', 'cell = "12 nm"')
+    return write(tmp_path, text, "long.toml")
+
+
+def _start(path, out, *extra):
+    env = dict(os.environ, PYTHONUNBUFFERED="1")
+    return subprocess.Popen([sys.executable, "-m", "fdtd.cli", "run", str(path), "-o", str(out), *extra],
+                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=env)
+
+
+def _wait_for(proc, word, timeout=120):
+    t0 = time.time()
+    lines = []
+    while time.time() - t0 < timeout:
+        line = proc.stderr.readline()
+        lines.append(line)
+        if word in line:
+            return
+        if proc.poll() is not None:
+            break
+    raise AssertionError(f"never saw {word!r}: {''.join(lines)}")
+
+
+def test_sigkill_leaves_no_complete_file(tmp_path):
+    path, out = _long_case(tmp_path), tmp_path / "killed.h5"
+    proc = _start(path, out)
+    try:
+        _wait_for(proc, "settling")
+        proc.send_signal(signal.SIGKILL)
+        proc.wait(timeout=30)
+    finally:
+        if proc.poll() is None:
+            proc.kill()
+    assert proc.returncode == -signal.SIGKILL
+    assert not out.exists()
+    for leftover in tmp_path.glob("killed.h5*"):
+        with h5py.File(leftover, "r") as f:
+            assert f.attrs["status"] != "complete"
+
+
+def test_interrupt_keeps_partial_results(tmp_path):
+    path, out = _long_case(tmp_path), tmp_path / "stopped.h5"
+    proc = _start(path, out)
+    try:
+        _wait_for(proc, "settling")
+        proc.send_signal(signal.SIGINT)
+        proc.wait(timeout=60)
+    finally:
+        if proc.poll() is None:
+            proc.kill()
+    assert proc.returncode == 130
+    with h5py.File(out, "r") as f:
+        assert f.attrs["status"] == "partial"
+        assert "interrupted" in f.attrs["stop_reason"]
+        assert len(f["ledger/time"]) > 1
+
+
+# ----------------------------------------------------------------------------- checkpoints
+def test_checkpoint_resume_is_bitwise_identical(tmp_path, capsys):
+    text = edit(TINY, "transits = 2", "transits = 2\ncheckpoint_every = 150")
+    path = write(tmp_path, text)
+    whole = fdtd.run(path, tmp_path / "whole.h5", progress=False)
+    sc = fdtd.load(path)
+    ck = tmp_path / "state.ck.h5"
+    first = PointRunner(sc, progress=False, checkpoint=str(ck))
+    total = whole.value("steps")
+    assert first.execute(stop_after_steps=int(total * 0.7)) == "stopped"
+    assert ck.exists()
+    assert main(["run", str(path), "-o", str(tmp_path / "resumed.h5"), "--resume", str(ck), "--quiet"]) == 0
+    capsys.readouterr()
+    a, b = fdtd.as_arrays(tmp_path / "whole.h5"), fdtd.as_arrays(tmp_path / "resumed.h5")
+    assert set(a) == set(b)
+    for name in a:
+        assert np.array_equal(a[name], b[name]), name
+
+
+# ----------------------------------------------------------------------------- figures
+def _png_variance(path) -> float:
+    import matplotlib.image as mpimg
+
+    img = mpimg.imread(path)
+    return float(np.var(img[..., :3]))
+
+
+def test_plots_are_not_blank(tiny_run, tmp_path, capsys):
+    _d, _p, h5, _out = tiny_run
+    assert main(["plot", str(h5), "-o", str(tmp_path / "figs"), "--format", "png,pdf"]) == 0
+    written = capsys.readouterr().out.split()
+    pngs = [Path(w) for w in written if w.endswith(".png")]
+    names = {p.stem for p in pngs}
+    assert {"geometry", "spectra", "kx_omega", "ledger"} <= names, names
+    for p in pngs:
+        assert _png_variance(p) > 1e-3, p
+    assert all(Path(w).stat().st_size > 1000 for w in written if w.endswith(".pdf"))
+
+
+@pytest.mark.parametrize("suffix", [".gif", ".mp4"])
+def test_animation_frames(tiny_run, tmp_path, capsys, suffix):
+    import imageio.v3 as iio
+
+    _d, _p, h5, _out = tiny_run
+    target = tmp_path / f"movie{suffix}"
+    assert main(["animate", str(h5), "-o", str(target)]) == 0
+    written = Path(capsys.readouterr().out.split()[-1])
+    if suffix == ".mp4" and written.suffix == ".gif":
+        pytest.skip("no MP4 encoder on this machine (GIF fallback written)")
+    frames = iio.imread(written, index=None)
+    assert frames.shape[0] == 5
+    assert float(np.var(frames[..., :3])) > 1.0
+    # the colour scale is fixed: a pixel far from the source keeps its colour where the field is weak
+    assert frames.shape[1] > 50 and frames.shape[2] > 50
+
+
+# ----------------------------------------------------------------------------- help
+@pytest.mark.parametrize("cmd", [[], ["check"], ["run"], ["plot"], ["animate"], ["demo"]])
+def test_help_says_what_each_command_does(cmd, capsys):
+    with pytest.raises(SystemExit) as exc:
+        main(cmd + ["--help"])
+    assert exc.value.code == 0
+    text = capsys.readouterr().out
+    assert "usage: gapwake" in text
+    assert len(text) > 200
+
+
+def test_worked_scenarios_validate():
+    files = sorted((ROOT / "scenarios").glob("*.toml"))
+    assert len(files) >= 3
+    for f in files:
+        sc = fdtd.load(f)
+        assert sc.text.lstrip().startswith("#"), f"{f.name}: starts with a comment on what it shows"
+        for rep in fdtd.check(sc):
+            assert "cells" in rep.text
