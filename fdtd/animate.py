@@ -45,13 +45,21 @@ def render_frames(res: Results, component: str | None = None, max_frames: int | 
             frames.append(_to_rgb(fig))
         return frames
     y = res.array("snapshots/y")
+    attrs = res.root[f"snapshots/{comp}"].attrs
+    si = float(attrs.get("si_factor", 1.0)) ** (2 if energy else 1)
+    unit = str(attrs.get("si_units", "")) + ("^2" if energy else "")
     scale, lab = _length_scale(u["length"], x[-1] - x[0])
     L = plan["length"]
     for k in range(n):
         fig, ax = plt.subplots(figsize=(7, 4))
         cmap = "RdBu_r" if not energy else "magma"
-        ax.pcolormesh(x * scale, y * scale, data[k].T, cmap=cmap, vmin=-lim if not energy else 0, vmax=lim,
-                      shading="auto")
+        pcm = ax.pcolormesh(x * scale, y * scale, data[k].T * si, cmap=cmap,
+                            vmin=(-lim if not energy else 0) * si, vmax=lim * si, shading="auto")
+        fig.colorbar(pcm, ax=ax, shrink=0.85, label=f"{comp}{'^2' if energy else ''} ({unit})")
+        absorb = plan.get("absorber")
+        if plan["kind"] == "comoving" and absorb:
+            for edge in (y[0] + absorb, y[-1] - absorb):   # inner edges of the absorbing layers
+                ax.axhline(edge * scale, color="0.5", lw=0.6, ls="--")
         for ys in plan.get("surfaces", []):
             ax.axhline(ys * scale, color="k", lw=0.8)
         xs = plan["x0"] + plan["speed"] * times[k]

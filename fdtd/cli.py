@@ -66,9 +66,10 @@ def build_parser() -> argparse.ArgumentParser:
     a.add_argument("--fps", type=int, default=12)
 
     d = sub.add_parser("demo", help="run a one-minute example scenario, plot and animate it",
-                       description="Runs scenarios/demo_dipole_above_lorentz.toml (a dipole gliding above a "
-                                   "lossy Lorentz half-space, about half a minute), writes the results, the "
-                                   "figures and an animation, and prints where they went.")
+                       description="Copies the demo scenario (a dipole gliding above a "
+                                   "lossy Lorentz half-space, about half a minute) into the output folder, runs "
+                                   "it, writes the results, the figures and an animation, and prints where "
+                                   "they went.")
     d.add_argument("-o", "--outdir", default="gapwake-demo", help="folder for the outputs")
     d.add_argument("--quiet", action="store_true", help="no progress output")
     return p
@@ -161,21 +162,20 @@ def main(argv=None) -> int:
 
 
 def _demo(args) -> int:
+    from importlib import resources
     from pathlib import Path
 
     from . import api
     from .animate import animate
     from .plotting import plot_all
 
-    here = Path(__file__).resolve().parent.parent / "scenarios" / "demo_dipole_above_lorentz.toml"
-    if not here.exists():
-        from importlib import resources
-
-        here = Path(str(resources.files("fdtd") / "data" / "demo_dipole_above_lorentz.toml"))
     out = Path(args.outdir)
     out.mkdir(parents=True, exist_ok=True)
+    # a copy next to the results, so that the user can edit it and rerun it with `gapwake run`
+    here = out / "demo.toml"
+    here.write_text((resources.files("fdtd") / "data" / "demo.toml").read_text())
     sc = api.load(here)
-    print(f"running {here.name} (a dipole gliding above a lossy Lorentz half-space) ...")
+    print(f"running {here} (a dipole gliding above a lossy Lorentz half-space) ...")
     res = api.run(sc, out / "demo.h5", progress=None if not args.quiet else False,
                   log=(lambda m: None) if args.quiet else (lambda m: print(m, file=sys.stderr)))
     _print_summary(res)
@@ -183,6 +183,7 @@ def _demo(args) -> int:
     movie = animate(res.file, out / "demo.gif")
     print("figures:\n  " + "\n  ".join(figs))
     print(f"animation: {movie}")
+    print(f"edit {here} (e.g. source.speed) and rerun it with: gapwake run {here}")
     return 0
 
 

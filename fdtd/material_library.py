@@ -157,7 +157,7 @@ def from_sellmeier(B: Sequence[float], C: Sequence[float], wavelength_unit: str 
         fold_above = _checks.positive("fold_above (normalized angular frequency)", fold_above)
     eps_inf = 1.0
     poles = []
-    for i, (b, c) in enumerate(zip(B, C, strict=True)):
+    for i, (b, c) in enumerate(zip(B.tolist(), C.tolist(), strict=True)):
         _checks.non_negative(f"Sellmeier B[{i}]", b)
         if c < 0.0:
             # lambda_i^2 < 0 would be an imaginary resonance: not an oscillator.

@@ -196,7 +196,7 @@ def plot_kw_map(res: Results, outdir: Path, formats=("png", "pdf"), stem="kx_ome
             ks = w * np.sqrt(np.where(bound, e.real / (e.real + 1), np.nan))
             ax.plot(ks * kscale, w * ev, "-.", color=ACCENT[(i + 2) % 4], lw=1, label=f"surface polariton, {name}")
     # show a few times the highest Doppler frequency of vacuum radiation, not the whole grid band
-    w_top = min(om.max(), 3.0 * max(plan["Omega"], 1e-6) / max(1 - plan["speed"], 0.05)) if plan["Omega"] else om.max()
+    w_top = min(om.max(), 1.5 * max(plan["Omega"], 1e-6) / max(1 - plan["speed"], 0.05)) if plan["Omega"] else om.max()
     k_top = min(kx.max(), 1.5 * w_top / max(plan["speed"], 0.2))
     ax.set(xlim=(-k_top * kscale, k_top * kscale), ylim=(0, w_top * ev),
            xlabel="k_x (1/um)", ylabel="hbar omega (eV)",
