@@ -10,7 +10,7 @@ from .errors import (GapwakeError, GeometryError, InstabilityError, ParameterErr
                      StabilityError)
 from .geometry import Everywhere, HalfSpace, Polygon, Rectangle, Slab
 from .grid import Grid
-from .materials import VACUUM, DrudePole, LorentzPole, Material, lorentz_material
+from .materials import VACUUM, DrudePole, LorentzPole, Material, NonlocalLorentzPole, lorentz_material
 from .model import Model
 from .solver import Solver
 from .sources import ContinuousWave, GaussianPulse, PrescribedCurrent, line_current
@@ -19,7 +19,7 @@ from .units import UnitSystem
 __all__ = [
     "__version__", "CPML", "PEC", "Periodic", "GapwakeError", "GeometryError", "InstabilityError",
     "ParameterError", "ShapeError", "StabilityError", "Everywhere", "HalfSpace", "Polygon",
-    "Rectangle", "Slab", "Grid", "VACUUM", "DrudePole", "LorentzPole", "Material",
+    "Rectangle", "Slab", "Grid", "VACUUM", "DrudePole", "LorentzPole", "NonlocalLorentzPole", "Material",
     "lorentz_material", "Model", "Solver", "ContinuousWave", "GaussianPulse", "PrescribedCurrent",
     "line_current", "UnitSystem", "load", "check", "run", "open_results", "as_arrays",
 ]

@@ -70,19 +70,43 @@ class Pole:
         raise NotImplementedError
 
     # -- continuum and discrete response --------------------------------
-    def susceptibility(self, omega):
-        """Continuum susceptibility chi(omega) (complex, broadcasts over omega)."""
+    def susceptibility(self, omega, k=None):
+        """Continuum susceptibility chi(omega, k) (complex, broadcasts over omega and k).
+
+        ``k`` (wavenumber, normalized) matters only for a spatially dispersive
+        pole; without it such a pole gives its long-wavelength (k = 0) response."""
         a0, a1, b = self.ade_parameters()
         w = np.asarray(omega, dtype=complex)
+        cl = self.laplacian_coefficient()
+        if cl and k is not None:
+            a0 = a0 + cl * np.asarray(k, dtype=float) ** 2
         return b / (a0 - w * w - 1j * a1 * w)
 
-    def discrete_susceptibility(self, omega, dt: float):
-        """Susceptibility realised by the central-difference ADE at time step dt."""
+    def discrete_susceptibility(self, omega, dt: float, K2=None):
+        """Susceptibility realised by the central-difference ADE at time step dt.
+
+        ``K2`` is the eigenvalue of minus the discrete Laplacian,
+        ``sum_i (2/Delta_i)^2 sin^2(k_i Delta_i / 2)``, for a spatially
+        dispersive pole (ignored by local poles; default 0)."""
         a0, a1, b = self.ade_parameters()
+        cl = self.laplacian_coefficient()
+        if cl and K2 is not None:
+            a0 = a0 + cl * np.asarray(K2, dtype=float)
         w = np.asarray(omega, dtype=complex)
         w_tilde_sq = (2.0 / dt * np.sin(w * dt / 2.0)) ** 2
         w_hat = np.sin(w * dt) / dt
         return b / (a0 - w_tilde_sq - 1j * a1 * w_hat)
+
+    def laplacian_coefficient(self) -> float:
+        """Coefficient ``c_L`` of ``-c_L lap P`` in the ADE (0: a local pole).
+
+        A spatially dispersive pole obeys ``P'' + a1 P' + a0 P - c_L lap P = b E``;
+        see :class:`NonlocalLorentzPole`."""
+        return 0.0
+
+    @property
+    def is_nonlocal(self) -> bool:
+        return self.laplacian_coefficient() != 0.0
 
     def ade_coefficients(self, dt: float) -> tuple[float, float, float]:
         """``(c1, c2, c3)`` of ``P^{n+1} = c1 P^n + c2 P^{n-1} + c3 E^n``."""
@@ -93,9 +117,10 @@ class Pole:
         c3 = b / denom
         return c1, c2, c3
 
-    def nyquist_susceptibility(self, dt: float) -> float:
+    def nyquist_susceptibility(self, dt: float, K2: float = 0.0) -> float:
         """chi_d at omega dt = pi (z = -1); the loss term vanishes there."""
         a0, _a1, b = self.ade_parameters()
+        a0 = a0 + self.laplacian_coefficient() * K2
         return b / (a0 - 4.0 / dt**2)
 
 
@@ -181,8 +206,80 @@ class DrudePole(Pole):
         return replace(self, omega_p=self.omega_p * float(np.sqrt(f)))
 
 
+@dataclass(frozen=True)
+class NonlocalLorentzPole(Pole):
+    r"""Spatially dispersive Lorentz oscillator (a physical wavenumber cutoff).
+
+    .. math::  \ddot P + \gamma \dot P + \Omega^2 P - \beta_{nl}^2 \nabla^2 P
+               = \Delta\varepsilon\,\Omega^2 E ,
+
+    so that ``chi(omega, k) = delta_eps Omega^2 / (Omega^2 + beta_nl^2 k^2 -
+    omega^2 - i gamma omega)``: the resonance of the oscillators rises with the
+    wavenumber, which bends the lower polariton branch so that its phase
+    velocity tends to ``beta_nl`` instead of zero at large k.  This is the
+    exciton-polariton model with spatial dispersion of J. J. Hopfield and
+    D. G. Thomas, Phys. Rev. 132, 563 (1963) (there ``D k^2`` with
+    ``D = beta_nl^2``), with Pekar's additional boundary condition ``P = 0`` at
+    the surface of the medium (S. I. Pekar, Sov. Phys. JETP 6, 785 (1958)).
+    On the grid ``nabla^2`` is the standard second-difference Laplacian on
+    each polarization component's own lattice, and ``P = 0`` on the nodes
+    next to the material (see DEVELOPERS.md, "Nonlocal pole").
+
+    Parameters
+    ----------
+    delta_eps : float
+        Oscillator strength, >= 0.
+    omega0 : float
+        Resonance Omega at k = 0 (normalized, c/ell), > 0.
+    gamma : float
+        Damping rate (normalized), >= 0.
+    beta_nl : float
+        Nonlocal speed (fraction of c), 0 <= beta_nl < 1; 0 is the local pole.
+    fill : float
+        Fraction of a part-filled cell (set by :meth:`scaled`; 1 in the bulk).
+    """
+
+    delta_eps: float
+    omega0: float
+    gamma: float = 0.0
+    beta_nl: float = 0.0
+    fill: float = 1.0
+
+    kind = "nonlocal_lorentz"
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "delta_eps", _checks.non_negative("nonlocal pole delta_eps", self.delta_eps))
+        object.__setattr__(self, "omega0", _checks.positive("nonlocal pole omega0 (resonance Omega)",
+                                                            self.omega0))
+        object.__setattr__(self, "gamma", _checks.non_negative("nonlocal pole gamma (damping rate)",
+                                                               self.gamma))
+        object.__setattr__(self, "beta_nl", _checks.in_range(
+            "nonlocal pole beta_nl (fraction of c)", self.beta_nl, 0.0, 1.0, hi_open=True))
+        object.__setattr__(self, "fill", _checks.in_range("nonlocal pole fill fraction", self.fill,
+                                                          0.0, 1.0, lo_open=True))
+
+    def ade_parameters(self) -> tuple[float, float, float]:
+        w2 = self.omega0 * self.omega0
+        return w2, self.gamma, self.delta_eps * w2
+
+    def laplacian_coefficient(self) -> float:
+        # part-filled cells scale the Laplacian term with b (both by the fill
+        # fraction): the ADE divided by b then has the same -(beta^2/b_bulk) lap P
+        # on every node, which keeps the discrete operator symmetric and the
+        # gradient energy exact (DEVELOPERS.md, "Nonlocal pole").
+        return self.beta_nl**2 * self.fill
+
+    def scaled(self, f: float) -> NonlocalLorentzPole:
+        return replace(self, delta_eps=self.delta_eps * f, fill=self.fill * f)
+
+    def local(self) -> LorentzPole:
+        """The same oscillator without spatial dispersion."""
+        return LorentzPole(self.delta_eps, self.omega0, self.gamma)
+
+
 #: Registry of pole kinds (used by scenario files and parametrised tests).
-POLE_KINDS: dict[str, type[Pole]] = {"lorentz": LorentzPole, "drude": DrudePole}
+POLE_KINDS: dict[str, type[Pole]] = {"lorentz": LorentzPole, "drude": DrudePole,
+                                     "nonlocal_lorentz": NonlocalLorentzPole}
 
 
 def register_pole_kind(name: str, cls: type[Pole]) -> None:
@@ -222,31 +319,47 @@ class Material:
     def is_dispersive(self) -> bool:
         return bool(self.poles)
 
-    def permittivity(self, omega):
-        """Continuum relative permittivity eps(omega) (complex)."""
+    @property
+    def is_nonlocal(self) -> bool:
+        """True if a pole is spatially dispersive (eps depends on k)."""
+        return any(p.is_nonlocal for p in self.poles)
+
+    def permittivity(self, omega, k=None):
+        """Continuum relative permittivity eps(omega, k) (complex; broadcasts).
+
+        ``k`` (normalized wavenumber) matters only for spatially dispersive
+        poles; without it they give their long-wavelength (k = 0) response."""
         w = np.asarray(omega, dtype=complex)
-        eps = np.full(w.shape, self.eps_inf, dtype=complex)
+        eps = np.full(np.broadcast(w, np.asarray(0.0 if k is None else k)).shape, self.eps_inf,
+                      dtype=complex)
         for p in self.poles:
-            eps = eps + p.susceptibility(w)
+            eps = eps + p.susceptibility(w, k)
         return eps if eps.ndim else complex(eps)
 
-    def discrete_permittivity(self, omega, dt: float):
+    def discrete_permittivity(self, omega, dt: float, k=None, spacing: float | None = None):
         """Permittivity eps_d(omega) realised by the time-stepping scheme at ``dt``.
 
         The spatial Yee dispersion then reads
         ``(2/dt)^2 sin^2(omega dt / 2) eps_d(omega) = K^2`` with
-        ``K^2 = sum_i (2/d_i)^2 sin^2(k_i d_i / 2)``.
+        ``K^2 = sum_i (2/d_i)^2 sin^2(k_i d_i / 2)``.  For a spatially dispersive
+        pole give the wavenumber ``k`` along one axis of cell size ``spacing``
+        (K^2 as above; without ``spacing`` K^2 = k^2).
         """
         dt = _checks.positive("dt", dt)
         w = np.asarray(omega, dtype=complex)
-        eps = np.full(w.shape, self.eps_inf, dtype=complex)
+        K2 = None
+        if k is not None:
+            kk = np.asarray(k, dtype=float)
+            K2 = kk**2 if spacing is None else (2.0 / spacing * np.sin(kk * spacing / 2.0)) ** 2
+        eps = np.full(np.broadcast(w, np.asarray(0.0 if K2 is None else K2)).shape, self.eps_inf,
+                      dtype=complex)
         for p in self.poles:
-            eps = eps + p.discrete_susceptibility(w, dt)
+            eps = eps + p.discrete_susceptibility(w, dt, K2)
         return eps if eps.ndim else complex(eps)
 
-    def nyquist_permittivity(self, dt: float) -> float:
+    def nyquist_permittivity(self, dt: float, K2: float = 0.0) -> float:
         """eps_d at omega dt = pi, which fixes the stability limit (see stability.py)."""
-        return self.eps_inf + sum(p.nyquist_susceptibility(dt) for p in self.poles)
+        return self.eps_inf + sum(p.nyquist_susceptibility(dt, K2) for p in self.poles)
 
     def refractive_index(self, omega):
         """Complex index sqrt(eps) on the branch with Im n >= 0."""

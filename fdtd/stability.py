@@ -20,6 +20,11 @@ exactly when that root stays below ``u = 4/dt^2`` for the largest ``K^2``,
            = \varepsilon_\infty - \sum_p \frac{b_p\,\Delta t^2}{4 - a_{0,p}\Delta t^2},
            \qquad a_{0,p}\Delta t^2 < 4 .
 
+A spatially dispersive pole (``- c_L lap P`` in its ADE) has, for the same
+plane wave, ``a0 -> a0 + c_L K^2``: the criterion holds for every K, and
+the right-hand side falls as K grows, so the checkerboard mode again decides
+and ``a0_p`` is replaced by ``a0_p + 4 c_L sum 1/Delta_i^2``.
+
 Because the polarization is advanced explicitly from ``E^n`` it adds a
 negative term: a Lorentz or Drude medium lowers the limit below the vacuum
 Courant limit (for a Drude pole, ``dt^2 sum 1/Delta^2 <= eps_inf - omega_p^2 dt^2/4``).
@@ -64,7 +69,11 @@ def max_stable_dt(spacing: Sequence[float], materials: Iterable[Material]) -> fl
 
 
 def _max_dt_one(D: float, material: Material) -> float:
-    params = [p.ade_parameters() for p in material.poles]
+    # A spatially dispersive pole adds c_L K^2 to a0 (its Laplacian on the pole's
+    # lattice has the same eigenvalue K^2 as the Yee curl-curl); the worst case
+    # is the checkerboard mode K^2 = 4 D.
+    params = [(a0 + p.laplacian_coefficient() * 4.0 * D, a1, b)
+              for p in material.poles for (a0, a1, b) in [p.ade_parameters()]]
     a0_max = max((a0 for a0, _a1, _b in params), default=0.0)
     x_hi = 4.0 / a0_max if a0_max > 0 else math.inf
 
