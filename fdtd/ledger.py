@@ -28,6 +28,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .kernels import energy as ek
+from .kernels import nonlocal_pole as nlk
 
 
 def _axis_range(box_axis, n: int, offset: float) -> tuple[int, int]:
@@ -171,6 +172,10 @@ class EnergyLedger:
                               t["gid"], s.dt, r[0], r[1], r[2], r[3], wp)
             we += a
             wx += b
+            for slot, mixn, _rows, _Q, _Pold, diag in getattr(s, "_nonlocal", {}).get(c, ()):
+                # gradient energy of a nonlocal pole (kernels/nonlocal_pole.py)
+                nlk.gradient_energy(P, Po, slot, mixn, t["nlg"], t["kappa"], diag, s._nl_inv_h2,
+                                    s._nl_periodic, self.tally_box(c), wp)
         f = s.fields
         if g.polarization == "1d":
             q = self.ranges["Hz"][0]

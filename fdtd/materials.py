@@ -79,7 +79,7 @@ class Pole:
         w = np.asarray(omega, dtype=complex)
         cl = self.laplacian_coefficient()
         if cl and k is not None:
-            a0 = a0 + cl * np.asarray(k, dtype=float) ** 2
+            a0 = a0 + cl * np.asarray(k) ** 2   # complex k: damped or evanescent waves
         return b / (a0 - w * w - 1j * a1 * w)
 
     def discrete_susceptibility(self, omega, dt: float, K2=None):

@@ -228,8 +228,27 @@ class Model:
             m = self.materials[mi]
             eps_inf += f * m.eps_inf
             for pi, p in enumerate(m.poles):
+                if p.is_nonlocal and f < 1.0:
+                    # Pekar's condition: no polarization of a spatially dispersive pole
+                    # on nodes cut by the surface (P = 0 there; kernels/nonlocal_pole.py)
+                    continue
                 poles.append(PoleRef(p if f == 1.0 else p.scaled(f), self._pole_gid[(mi, pi)]))
         return Mixture(eps_inf, tuple(poles), fr)
+
+    def material_fraction_table(self) -> np.ndarray:
+        """``F[m, k]``: fraction of material k in mixture m (walls: 0), (n_mix, n_materials)."""
+        F = np.zeros((len(self.mixtures), len(self.materials)))
+        for m, mix in enumerate(self.mixtures):
+            if not mix.is_wall:
+                F[m, :len(mix.fractions)] = mix.fractions
+        return F
+
+    def pole_material(self, gid: int) -> int:
+        """Index (in ``materials``) of the material that global pole ``gid`` belongs to."""
+        for (mi, _pi), g in self._pole_gid.items():
+            if g == gid:
+                return mi
+        raise ParameterError(f"pole id {gid} is not on this model")
 
     # ------------------------------------------------------------------
     @property
@@ -310,7 +329,10 @@ class Model:
         ``inv_eps[m]`` (0 for walls), ``n_poles[m]``, ``c1, c2, c3[m, s]``
         (ADE coefficients of slot s), ``gid[m, s]`` (global pole id or -1),
         and for the ledger ``kin[m, s] = 1/(2b)``, ``pot[m, s] = a0/(2b)``,
-        ``bath[m, s] = a1/b``, ``eps_inf[m]``.
+        ``bath[m, s] = a1/b``, ``eps_inf[m]``; for spatially dispersive poles
+        ``c4[m, s]`` (coefficient of the Laplacian in the update),
+        ``kappa[m, s] = c_L/b`` (gradient energy) and ``nlg[m, s]`` (global
+        pole id of a nonlocal pole, else -1).
         """
         nm = len(self.mixtures)
         ns = max(self.max_poles, 1)
@@ -319,6 +341,8 @@ class Model:
             "c1": np.zeros((nm, ns)), "c2": np.zeros((nm, ns)), "c3": np.zeros((nm, ns)),
             "gid": -np.ones((nm, ns), dtype=np.int64), "kin": np.zeros((nm, ns)),
             "pot": np.zeros((nm, ns)), "bath": np.zeros((nm, ns)),
+            "c4": np.zeros((nm, ns)), "kappa": np.zeros((nm, ns)),
+            "nlg": -np.ones((nm, ns), dtype=np.int64),
         }
         for k, mix in enumerate(self.mixtures):
             if mix.is_wall:
@@ -335,7 +359,19 @@ class Model:
                     t["kin"][k, s] = 1.0 / (2.0 * b)
                     t["pot"][k, s] = a0 / (2.0 * b)
                     t["bath"][k, s] = a1 / b
+                cl = pr.pole.laplacian_coefficient()
+                if cl:
+                    # P^{n+1} gains c4 (L P^n); kappa = c_L / b is the same on every
+                    # part-filled node of the pole (kernels/nonlocal_pole.py)
+                    t["c4"][k, s] = cl / (1.0 / dt**2 + a1 / (2.0 * dt))
+                    t["kappa"][k, s] = cl / b if b > 0 else 0.0
+                    t["nlg"][k, s] = pr.gid
         return t
+
+    @property
+    def nonlocal_pole(self) -> bool:
+        """True if a spatially dispersive pole is on the grid."""
+        return any(pr.pole.is_nonlocal for k in self._used_mixtures for pr in self.mixtures[k].poles)
 
     def describe(self) -> str:
         g = self.grid

@@ -25,7 +25,7 @@ import numpy as np
 import scipy.constants as sc
 
 from . import quantities as Q
-from .materials import VACUUM, DrudePole, LorentzPole, Material
+from .materials import VACUUM, DrudePole, LorentzPole, Material, NonlocalLorentzPole
 from .quantities import ScenarioError
 
 
@@ -52,6 +52,8 @@ POLE_KEYS = {
     "omega": Key("angular_frequency", False, lo=0.0, lo_open=True, doc="Lorentz resonance"),
     "omega_p": Key("angular_frequency", False, lo=0.0, lo_open=True, doc="Drude plasma frequency"),
     "gamma": Key("rate", False, default=0.0, lo=0.0, doc="damping rate (loss into the bath)"),
+    "beta_nl": Key("speed", False, default=0.0, lo=0.0, hi=1.0, hi_open=True,
+                   doc="Lorentz only: nonlocal speed (spatial dispersion, a physical wavenumber cutoff)"),
 }
 
 MATERIAL_KEYS = {
@@ -68,6 +70,8 @@ MATERIAL_KEYS = {
     "file": Key("str", False, doc="CSV table of n, k or eps', eps''"),
     "n_lorentz": Key("int", False, default=2, lo=0, doc="poles for a table fit"),
     "n_drude": Key("int", False, default=0, lo=0, doc="Drude poles for a table fit"),
+    "beta_nl": Key("speed", False, default=0.0, lo=0.0, hi=1.0, hi_open=True,
+                   doc="polar: nonlocal speed of the phonon pole (spatial dispersion)"),
 }
 
 SCHEMA = {
@@ -383,6 +387,12 @@ class Scenario:
                     self.errors.append(f"{self.where}: {p}.poles[{i}] (lorentz) needs delta_eps and omega")
                 if pole["kind"] == "drude" and pole.get("omega_p") is None:
                     self.errors.append(f"{self.where}: {p}.poles[{i}] (drude) needs omega_p")
+                if pole["kind"] == "drude" and pole.get("beta_nl"):
+                    self._fail(f"{p}.poles[{i}].beta_nl", self.raw["materials"][name]["poles"][i]["beta_nl"],
+                               "0 for a Drude pole (spatial dispersion is offered for Lorentz poles only)")
+            if k != "polar" and m.get("beta_nl"):
+                self._fail(f"{p}.beta_nl", self.raw["materials"][name]["beta_nl"],
+                           "no material-level beta_nl unless kind = 'polar' (give it per pole)")
         g = v["geometry"]
         need_mat("geometry.background", g["background"])
         if g["kind"] in ("half-space", "slab"):
@@ -499,7 +509,10 @@ class Resolved:
         if k == "poles":
             poles = []
             for p in m["poles"]:
-                if p["kind"] == "lorentz":
+                if p["kind"] == "lorentz" and p.get("beta_nl"):
+                    poles.append(NonlocalLorentzPole(p["delta_eps"], self.W(p["omega"]), self.W(p["gamma"]),
+                                                     p["beta_nl"]))
+                elif p["kind"] == "lorentz":
                     poles.append(LorentzPole(p["delta_eps"], self.W(p["omega"]), self.W(p["gamma"])))
                 else:
                     poles.append(DrudePole(self.W(p["omega_p"]), self.W(p["gamma"])))
@@ -507,6 +520,9 @@ class Resolved:
         if k == "polar":
             wt, wl = self.W(m["omega_to"]), self.W(m["omega_lo"])
             de = m["eps_inf"] * (wl**2 - wt**2) / wt**2        # Lyddane-Sachs-Teller
+            if m.get("beta_nl"):
+                return Material(m["eps_inf"], (NonlocalLorentzPole(de, wt, self.W(m["gamma"]), m["beta_nl"]),),
+                                name)
             return Material(m["eps_inf"], (LorentzPole(de, wt, self.W(m["gamma"])),), name)
         if k == "sellmeier":
             poles = []

@@ -23,6 +23,7 @@ import numpy as np
 from . import _checks
 from .errors import GeometryError, InstabilityError, ParameterError
 from .kernels import energy as ek
+from .kernels import nonlocal_pole as nlk
 from .kernels.yee1d import step_1d
 from .kernels.yee_te import step_te
 from .kernels.yee_tm import step_tm
@@ -119,7 +120,10 @@ class Solver:
         self.bath_rows = np.zeros((n_rows, n_gid))
         self._coef = (self.tables["inv_eps"], self.tables["n_poles"], self.tables["c1"],
                       self.tables["c2"], self.tables["c3"])
-        self._bathc = np.ascontiguousarray(self.tables["bath"])
+        self._bathc_all = np.ascontiguousarray(self.tables["bath"])
+        # the steppers tally the bath of local poles only; nonlocal slots are
+        # tallied after their Laplacian correction (kernels/nonlocal_pole.py)
+        self._bathc = np.where(self.tables["nlg"] >= 0, 0.0, self._bathc_all)
         self._gid = np.ascontiguousarray(np.maximum(self.tables["gid"], 0))
         self._prof = [self._profile_tuple(p, a) for a, p in enumerate(self.profiles)]
         self.psi: dict[str, np.ndarray] = {}
@@ -127,6 +131,7 @@ class Solver:
         self._segs = {c: (s.row_ptr, s.seg_start, s.seg_stop, s.seg_mix)
                       for c, s in model.segments.items()}
         self._flat_mix = {c: model.mix_maps[c].reshape(-1) for c in g.e_components}
+        self._setup_nonlocal()
 
         # ---- ledger ----------------------------------------------------------
         self.ledger: EnergyLedger | None = None
@@ -178,6 +183,64 @@ class Solver:
         for key in names_y:
             self.psi[key] = np.zeros((nx, npy))
 
+    def _setup_nonlocal(self) -> None:
+        """Work arrays of the nonlocal poles: per E component, the slots that hold
+        one, the row range they occupy, and Q / P^{n-1} buffers (rows, cols)."""
+        g = self.grid
+        self._nonlocal: dict[str, list] = {}
+        self.nonlocal_outflow = 0.0
+        nlg = self.tables["nlg"]
+        if not (nlg >= 0).any():
+            return
+        if g.dims == 1:
+            self._nl_inv_h2 = (0.0, 1.0 / g.spacing[0] ** 2)
+            self._nl_periodic = (True, bool(self.model.periodic[0]))
+        else:
+            self._nl_inv_h2 = (1.0 / g.spacing[0] ** 2, 1.0 / g.spacing[1] ** 2)
+            self._nl_periodic = (bool(self.model.periodic[0]), bool(self.model.periodic[1]))
+        fractions = self.model.material_fraction_table()
+        for c in g.e_components:
+            mix2 = self.model.mix_maps[c].reshape(1, -1) if g.dims == 1 else self.model.mix_maps[c]
+            mix2 = np.ascontiguousarray(mix2)
+            entries = []
+            for s in range(nlg.shape[1]):
+                groups = nlg[mix2, s]
+                if not (groups >= 0).any():
+                    continue
+                rws = np.nonzero((groups >= 0).any(axis=1))[0]
+                rows = (int(rws[0]), int(rws[-1]) + 1)
+                diag = np.zeros(mix2.shape)
+                for gid in np.unique(groups[groups >= 0]):
+                    fill = fractions[mix2, self.model.pole_material(int(gid))]
+                    diag += nlk.boundary_diagonal(groups == gid, fill, self._nl_inv_h2,
+                                                  self._nl_periodic)
+                entries.append((s, mix2, rows, np.zeros(mix2.shape), np.zeros(mix2.shape), diag))
+            if entries:
+                self._nonlocal[c] = entries
+
+    def _nonlocal_prepass(self) -> None:
+        t = self.tables
+        for c, entries in self._nonlocal.items():
+            P, Po = self.polarization[c]
+            for s, mix2, rows, Q, Pold, diag in entries:
+                nlk.prepass(P, Po, s, mix2, t["nlg"], t["c4"], diag, self._nl_inv_h2,
+                            self._nl_periodic, rows, Q, Pold)
+
+    def _nonlocal_postpass(self) -> None:
+        t = self.tables
+        g = self.grid
+        out = 0.0
+        for c, entries in self._nonlocal.items():
+            P, Po = self.polarization[c]
+            E2 = self.fields[c].reshape(1, -1) if g.dims == 1 else self.fields[c]
+            for s, mix2, rows, Q, Pold, _diag in entries:
+                out += nlk.postpass(P, Po, E2, s, mix2, t["nlg"], t["inv_eps"], Q, Pold, rows,
+                                    self._tally, self._tally_boxes[c], self._bathc_all, self._gid,
+                                    self.bath_rows, t["kappa"], self._nl_inv_h2, self._nl_periodic)
+        if self.ledger is not None:
+            self.ledger.outflow += out * g.cell_volume
+        self.nonlocal_outflow += out * g.cell_volume
+
     def add_source(self, source: Source) -> None:
         if not isinstance(source, Source):
             raise ParameterError(f"source {source!r}: expected an fdtd Source")
@@ -205,6 +268,13 @@ class Solver:
 
     # ------------------------------------------------------------------
     def _kernel(self) -> None:
+        if self._nonlocal:
+            self._nonlocal_prepass()
+        self._local_kernel()
+        if self._nonlocal:
+            self._nonlocal_postpass()
+
+    def _local_kernel(self) -> None:
         g = self.grid
         f = self.fields
         psi = self.psi
