@@ -254,8 +254,9 @@ def _pekar_reflection(w, mat):
 
 def _simulated_reflection(mat, dx, ws, surface_offset):
     """r(w) of a broadband pulse in 1D: (run with the medium - run in vacuum) / vacuum run at
-    a probe, phase referred to the surface."""
-    npml = 30
+    a probe, phase referred to the surface.  The absorbing layers keep a fixed physical
+    thickness (3 length units) so that their own reflection does not grow as dx shrinks."""
+    npml = max(30, int(round(3.0 / dx)))
     g = f.Grid((int(round(40.0 / dx)),), (dx,), "1d", origin=(-20.0,))
     xs = surface_offset * dx
     runs = []
