@@ -371,6 +371,14 @@ class PlanarResult:
     speed); ``internal_power`` the part of the lab power drawn from the
     internal oscillation (negative: pumped); ``motion_power = v * drag``.
     ``error`` holds quadrature error estimates.
+
+    ``branch`` holds per-branch figures keyed by branch (+1 normal, -1
+    anomalous, 0 charge): ``branch["power"][b]`` the lab power,
+    ``branch["internal_power"][b]`` the internal power sum P s Omega / omega of
+    that branch (used by :mod:`fdtd.rates`: the rest-frame power of branch b is
+    gamma^2 |internal_power[b]|), ``branch["error"][b]`` the quadrature error
+    estimate of that branch's power (controlled on the power; the internal
+    power is integrated on the same panels).
     """
 
     total: float
@@ -587,11 +595,14 @@ class PlanarReference:
         """Total, normal and anomalous power, drag force, internal power, fluxes."""
         s = self.source
         out = {}
+        internal_b, err_b = {}, {}
         err = 0.0
         drag = internal = up = down = 0.0
         for b in self.branches():
             vals, e = self.branch_integrals(b, rtol)
             out[b] = float(vals[0])
+            internal_b[b] = float(vals[4])
+            err_b[b] = float(e)
             up += vals[1]
             down += vals[2]
             drag += vals[3]
@@ -601,7 +612,8 @@ class PlanarReference:
         normal = out.get(1, 0.0) + out.get(0, 0.0)
         anomalous = out.get(-1, 0.0)
         return PlanarResult(total, normal, anomalous, float(drag), float(internal),
-                            s.speed * float(drag), float(up), float(down), err, branch={"power": out})
+                            s.speed * float(drag), float(up), float(down), err,
+                            branch={"power": out, "internal_power": internal_b, "error": err_b})
 
     def periodic(self, length: float, m_max: int = 400, what: str = "power") -> dict:
         """Like-for-like with a co-moving periodic cell: values at k_m = 2 pi m / length.
@@ -721,6 +733,7 @@ class Bulk1D:
 
     def solve(self, rtol: float = 1e-8) -> PlanarResult:
         out = {}
+        internal_b, err_b = {}, {}
         drag = internal = err = 0.0
         for b in (1, -1):
             def f(x, b=b):
@@ -732,13 +745,15 @@ class Bulk1D:
                 return np.stack([P, P * kw, P * iw]) / (2 * np.pi)
             vals, e = adaptive_integral(f, self._breakpoints(b), rtol=rtol)
             out[b] = float(vals[0])
+            internal_b[b] = float(vals[2])
+            err_b[b] = float(e)
             drag += vals[1]
             internal += vals[2]
             err += e
         total = out[1] + out[-1]
         return PlanarResult(total, out[1], out[-1], float(drag), float(internal),
                             self.speed * float(drag), float("nan"), float("nan"), err,
-                            branch={"power": out})
+                            branch={"power": out, "internal_power": internal_b, "error": err_b})
 
     def periodic(self, length: float, m_max: int = 2000) -> dict:
         L = _checks.positive("cell length", length)
