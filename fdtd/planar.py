@@ -421,6 +421,14 @@ class PlanarReference:
             raise ParameterError(f"stack = {stack!r}: expected fdtd.planar.Stack")
         if not isinstance(source, MovingLineSource):
             raise ParameterError(f"source = {source!r}: expected MovingLineSource")
+        for m in stack.media:
+            if m.is_nonlocal:
+                # the layered solution takes one transverse wave per layer and no additional
+                # boundary condition: a spatially dispersive layer has two and needs Pekar's
+                raise ParameterError(
+                    f"material {m.name!r} has a spatially dispersive (nonlocal) pole: the layered "
+                    "reference treats every layer as local; use Bulk1D for one uniform medium, or "
+                    "compare with the local limit (pole.local())")
         self.stack = stack
         self.source = source
         self.form_factor = form_factor
@@ -636,22 +644,18 @@ class PlanarReference:
         return res
 
 
+def _lossless_material(m: Material) -> Material:
+    """The material with every pole's damping set to zero (mode positions)."""
+    from dataclasses import replace as _replace
+
+    poles = tuple(_replace(p, gamma=0.0) if hasattr(p, "gamma") else p for p in m.poles)
+    return Material(m.eps_inf, poles, m.name)
+
+
 def _lossless(stack: Stack) -> Stack:
-    from .materials import DrudePole, LorentzPole
-
-    def strip(m: Material) -> Material:
-        poles = []
-        for p in m.poles:
-            if isinstance(p, LorentzPole):
-                poles.append(LorentzPole(p.delta_eps, p.omega0, 0.0))
-            elif isinstance(p, DrudePole):
-                poles.append(DrudePole(p.omega_p, 0.0))
-            else:
-                poles.append(p)
-        return Material(m.eps_inf, tuple(poles), m.name)
-
-    return Stack(strip(stack.bottom), tuple((strip(m), t) for m, t in stack.layers), strip(stack.top),
-                 stack.y0)
+    return Stack(_lossless_material(stack.bottom),
+                 tuple((_lossless_material(m), t) for m, t in stack.layers),
+                 _lossless_material(stack.top), stack.y0)
 
 
 # --------------------------------------------------------------------- 1D bulk
@@ -699,13 +703,20 @@ class Bulk1D:
         ok = w > 0
         if np.any(ok):
             ww = w[ok]
-            eps = _eps(self.material, ww)
+            eps = self._eps(ww, k[ok])
             D = k[ok] ** 2 - ww**2 * eps
             val = 0.5 * self.Omega**2 * self.moment**2 * ww**3 * eps.imag / np.abs(D) ** 2
             if self.form_factor is not None:
                 val = val * np.abs(self.form_factor(k[ok])) ** 2
             out[ok] = val
         return out
+
+    def _eps(self, omega, k):
+        """eps(omega, k): a spatially dispersive pole sees the sheet's wavenumber k."""
+        with np.errstate(divide="ignore", invalid="ignore"):
+            return np.asarray(self.material.permittivity(np.asarray(omega, dtype=float),
+                                                         k if self.material.is_nonlocal else None),
+                              dtype=complex)
 
     def _range(self, branch):
         kmax = self.k_max if self.k_max is not None else 60.0 * (self.Omega + 1.0) / self.speed
@@ -716,8 +727,10 @@ class Bulk1D:
         lo, hi = self._range(branch)
         kk = np.linspace(lo, hi, 200001)[1:-1]
         w = self.omega_of(kk, branch)
-        lossless = _lossless(Stack(self.material, (), self.material))
-        e = np.real(_eps(lossless.bottom, w))
+        lossless = _lossless_material(self.material)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            e = np.real(np.asarray(lossless.permittivity(w, kk if lossless.is_nonlocal else None),
+                                   dtype=complex))
         g = kk * kk - w * w * e
         idx = np.nonzero(np.sign(g[1:]) * np.sign(g[:-1]) < 0)[0]
         pts = [lo, hi]

@@ -716,6 +716,53 @@ class PointRunner:
                 p.warnings.append(msg)
             summary["warning_grid_cutoff"] = {"value": msg, "error": None, "units": "", "normalized": None}
 
+    def _reference_rate_ratios(self, ref: dict, summary: dict) -> None:
+        """Gamma/Gamma_0 of the planar reference on the same k set (like for like)."""
+        from . import rates as Q
+
+        p = self.plan
+        ks, bs, ps = [], [], []
+        for b, (k, pw) in ref.items():
+            ks.append(k)
+            bs.append(np.full(k.shape, b))
+            ps.append(pw)
+        k, b, pw = np.concatenate(ks), np.concatenate(bs), np.concatenate(ps)
+        W = Q.rest_frame_branch_powers(k * p.speed + b * p.Omega, b, pw, p.Omega, p.speed)
+        P0 = Q.free_space_power(p.omega0, abs(p.moment), 2, p.axis)
+        for name, s in (("reference_decay_rate_ratio", 1), ("reference_excitation_rate_ratio", -1)):
+            summary[name] = {"value": W[s] / P0, "error": None, "units": "1", "normalized": W[s] / P0}
+
+    def _quantum_rates(self, spec, summary: dict) -> None:
+        """Equivalent two-level rates (fdtd/rates.py): rest frame, per unit proper time."""
+        from . import rates as Q
+
+        p, u = self.plan, self.res.units
+        d = self.scenario.values["source"].get("transition_dipole")
+        if d is None:
+            d = 0.5 * abs(p.moment) * u.dipole_moment      # p0 = 2|d|
+        dims = 1 if p.polarization == "1d" else 2
+        axis = p.axis if dims == 2 else "y"
+        try:
+            r = Q.equivalent_rates(spec, moment=abs(p.moment), dims=dims, axis=axis, dipole=d, units=u)
+        except GapwakeError as exc:
+            p.notes.append(f"no equivalent rates: {exc}")
+            return
+        unit = Q._SI_RATE[dims]
+
+        def put(name, value, err, units):
+            summary[name] = {"value": float(value), "units": units, "normalized": None,
+                             "error": None if not math.isfinite(err) else float(err)}
+
+        put("decay_rate", r.gamma_down, r.gamma_down_error, unit)
+        put("excitation_rate", r.gamma_up, r.gamma_up_error, unit)
+        put("free_space_decay_rate", r.gamma_free, math.nan, unit)
+        put("decay_rate_ratio", r.ratio_down, r.ratio_down_error, "1")
+        put("excitation_rate_ratio", r.ratio_up, r.ratio_up_error, "1")
+        for k in ("decay_rate_ratio", "excitation_rate_ratio"):
+            summary[k]["normalized"] = summary[k]["value"]
+        summary["transition_dipole"] = {"value": float(d), "error": None, "units": Q._SI_MOMENT[dims].split()[0],
+                                        "normalized": None}
+
     def collect(self, status: str) -> dict:
         """Arrays and summary of this point (normalized units + unit labels)."""
         p, s, u = self.plan, self.solver, self.res.units
@@ -748,6 +795,8 @@ class PointRunner:
                 fig(name, getattr(spec, attr), q, err)
             fig("unresolved_power", spec.unresolved, "power")
             self._grid_cutoff_check(spec, summary)
+            if p.source_kind == "dipole" and p.speed > 0:
+                self._quantum_rates(spec, summary)
         if self.flux_rec is not None and self.flux_rec.wsum[0] > 0:
             out["fluxes"] = self.flux_rec.result()
             for y, fl in zip(p.flux_heights, out["fluxes"]):
@@ -775,6 +824,23 @@ class PointRunner:
                     fig("reference_normal_power", out["reference"][1][1].sum(), "power")
                 if -1 in out["reference"]:
                     fig("reference_anomalous_power", out["reference"][-1][1].sum(), "power")
+                if kind == "dipole":
+                    self._reference_rate_ratios(out["reference"], summary)
+                    # a single emitter (the continuum k_x integral), not the cell's row of emitters
+                    from .rates import equivalent_rates
+
+                    one = equivalent_rates(ref)
+                    for name, val in (("single_emitter_decay_rate_ratio", one.ratio_down),
+                                      ("single_emitter_excitation_rate_ratio", one.ratio_up)):
+                        summary[name] = {"value": val, "error": None, "units": "1", "normalized": val}
+                    row = summary.get("reference_decay_rate_ratio", {}).get("value")
+                    if row is not None and abs(row - one.ratio_down) > 0.1 * abs(one.ratio_down):
+                        msg = (f"the cell's row of emitters (spaced by grid.length) decays at "
+                               f"{row:.3g} Gamma_0, an isolated emitter at {one.ratio_down:.3g} Gamma_0 "
+                               "(planar reference): the cell samples k_x too coarsely for single-emitter "
+                               "rates; lengthen grid.length, or quote the single_emitter_* figures")
+                        summary["warning_row_of_emitters"] = {"value": msg, "error": None, "units": "",
+                                                              "normalized": None}
             except GapwakeError as exc:
                 p.notes.append(f"no reference: {exc}")
         summary["steady"] = {"value": self.state.get("steady"), "error": None, "units": "", "normalized": None}

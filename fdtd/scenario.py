@@ -119,6 +119,9 @@ SCHEMA = {
         "frequency": Key("angular_frequency", False, lo=0.0, lo_open=True, doc="rest-frame frequency"),
         "axis": Key("choice", False, default="y", choices=("x", "y", "z")),
         "moment": Key("dipole_per_length", False, default=None, doc="rest-frame dipole moment per length"),
+        "transition_dipole": Key("dipole_per_length", False, default=None, lo=0.0, lo_open=True,
+                                 doc="two-level transition dipole |d| for the equivalent quantum rates "
+                                     "(default: half the moment, p0 = 2|d|)"),
         "charge": Key("charge_per_length", False, default=None, doc="line charge"),
         "ramp_periods": Key("number", False, default=3.0, lo=0.0, doc="switch-on, rest-frame periods"),
         "speed_ramp": Key("time", False, default=None, lo=0.0, doc="charges: time to reach the speed"),

@@ -301,6 +301,34 @@ def test_json_summary(tmp_path, capsys):
         assert set(p[key]) >= {"value", "error", "units"}
 
 
+def test_json_summary_carries_equivalent_quantum_rates(tmp_path, capsys):
+    """The run summary turns the branch powers into two-level rates (fdtd/rates.py).  The
+    absolute scale is checked here against the 2D free-space rate written out with
+    scipy.constants: a line of dipoles p0 = 2|d| per unit length radiates mu0 w^3 p0^2/16
+    per unit length in plane (the Hankel-function result of tests/test_radiation.py), so
+    Gamma_0 = mu0 w^2 (2|d|)^2 / (16 hbar); and the simulated ratios agree with the planar
+    reference on the same k set."""
+    import scipy.constants as sc
+
+    d = 3.0e-30
+    text = edit(edit(TINY, "snapshots = 5", "snapshots = 0"), 'frequency = "1.2 eV"',
+                f'frequency = "1.2 eV"\ntransition_dipole = "{d} C"')
+    path = write(tmp_path, text)
+    assert main(["run", str(path), "-o", str(tmp_path / "a.h5"), "--json"]) == 0
+    p = json.loads(capsys.readouterr().out)["points"][0]
+    w0 = 1.2 * sc.e / sc.hbar
+    gamma0 = sc.mu_0 * w0**2 * (2 * d) ** 2 / (16 * sc.hbar)
+    assert p["free_space_decay_rate"]["units"] == "1/(s m)"
+    assert p["free_space_decay_rate"]["value"] == pytest.approx(gamma0, rel=1e-9)
+    for name in ("decay", "excitation"):
+        r = p[f"{name}_rate_ratio"]
+        assert p[f"{name}_rate"]["value"] == pytest.approx(r["value"] * gamma0, rel=1e-9)
+        ref = p[f"reference_{name}_rate_ratio"]["value"]
+        assert abs(r["value"] - ref) <= 0.05 * abs(ref) + 3 * r["error"], (name, r, ref)
+    assert p["excitation_rate_ratio"]["value"] > 0.01      # v = 0.6 pumps the oscillator here
+    assert p["transition_dipole"]["value"] == pytest.approx(d, rel=1e-12)
+
+
 def test_failed_write_leaves_no_complete_file(tmp_path, monkeypatch):
     import fdtd.runner as runner
 
