@@ -72,6 +72,8 @@ def plot_geometry(res: Results, outdir: Path, formats=("png", "pdf"), stem="geom
     u = res.units()
     grid = res.attrs("grid")
     plan = json.loads(res.root.attrs["plan"])
+    if plan["polarization"] == "1d":
+        return _plot_geometry_1d(res, plan, grid, u, outdir, formats, stem)
     nx, ny = grid["shape"][:2] if len(grid["shape"]) == 2 else (grid["shape"][0], 1)
     dx = grid["spacing"][0]
     x0, y0 = grid["origin"][0], (grid["origin"][1] if len(grid["origin"]) > 1 else 0.0)
@@ -119,6 +121,29 @@ def plot_geometry(res: Results, outdir: Path, formats=("png", "pdf"), stem="geom
            + f", {plan['polarization'].upper()} grid {nx} x {ny}")
     ax.set_aspect("equal", adjustable="box")
     ax.legend(loc="upper right", fontsize=8, framealpha=0.9)
+    return _save(fig, outdir, stem, formats)
+
+
+def _plot_geometry_1d(res, plan, grid, u, outdir, formats, stem) -> list[str]:
+    """A 1D cell: the uniform medium along x, periodic ends, the sheet's path."""
+    plt = _mpl()
+    nx, dx = grid["shape"][0], grid["spacing"][0]
+    scale, lab = _length_scale(u["length"], nx * dx)
+    names = json.loads(res.root["geometry"].attrs["material_names"]) if res.has("geometry") else []
+    mm = res.array("geometry/material_map") if res.has("geometry/material_map") else None
+    medium = names[int(np.max(mm))] if (mm is not None and names) else "vacuum"
+    fig, ax = plt.subplots(figsize=(7, 2.6))
+    X1 = nx * dx * scale
+    ax.add_patch(plt.Rectangle((0, 0), X1, 1, color="#CCE5F2", zorder=0, label=f"uniform medium: {medium}"))
+    for xe in (0, X1):
+        ax.axvline(xe, color="0.3", ls="--", lw=1)
+    ax.annotate("", xy=(0.8 * X1, 0.5), xytext=(0.2 * X1, 0.5),
+                arrowprops=dict(arrowstyle="->", color=ANOMALOUS, lw=2))
+    ax.plot([], [], color=ANOMALOUS, lw=2, label=f"dipole sheet (moment along y), v = {plan['speed']:.3g} c")
+    ax.plot([], [], color="0.3", ls="--", lw=1, label="periodic ends (co-moving cell)")
+    ax.set(xlim=(-0.02 * X1, 1.02 * X1), ylim=(0, 1), xlabel=f"x ({lab})", yticks=[],
+           title=f"1D co-moving periodic cell, {nx} cells; fields depend on x only")
+    ax.legend(loc="upper center", bbox_to_anchor=(0.5, -0.35), ncol=2, fontsize=8)
     return _save(fig, outdir, stem, formats)
 
 

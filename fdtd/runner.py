@@ -182,6 +182,8 @@ def plan(res: Resolved) -> Plan:
         w_hi = res.W(s["max_frequency"]) if s.get("max_frequency") else None
     _pl, _stack, surfaces, _bg = _placements(res)
     warn, notes = [], list(res.notes)
+    if pol == "1d":
+        _check_1d(res, notes)
     height = res.L(s["height"])
     if s.get("gap_fraction") is not None:
         g = v["geometry"]
@@ -220,7 +222,9 @@ def plan(res: Resolved) -> Plan:
         max(2.0 * max([abs(height)] + [abs(y) for y in surfaces]) + 1.0, 2.0)
     lam0 = 2 * math.pi / (omega0 if omega0 else (w_hi or 1.0))
     absorber = res.L(grid["absorber"]) if grid.get("absorber") is not None else max(lam0 / 4, 10 * cell)
-    if run["kind"] == "comoving":
+    if pol == "1d":
+        ny, half_height, absorber, height = 1, cell, 0.0, 0.0
+    elif run["kind"] == "comoving":
         ny = 2 * int(round(half_height / cell)) + 2 * max(int(round(absorber / cell)), 10)
     else:
         ny = int(round(2 * half_height / cell)) + 2 * max(int(round(absorber / cell)), 10)
@@ -235,7 +239,7 @@ def plan(res: Resolved) -> Plan:
     charge = (s["charge"] / res.units.charge) if s.get("charge") is not None else 1.0
     order, scale = s["shape_order"], s["shape_scale"]
     reach = (0.5 * (order + 1) * scale + 1.5) * cell
-    if abs(height) + reach > half_height:
+    if pol != "1d" and abs(height) + reach > half_height:
         raise ScenarioError(
             f"{res.scenario.where}: source.height = {height * res.ell:.4g} m does not fit in the interior: "
             f"grid.height = {half_height * res.ell:.4g} m must exceed |height| plus the source's reach "
@@ -247,7 +251,7 @@ def plan(res: Resolved) -> Plan:
              moment=moment, charge=charge, ramp=ramp, speed_ramp=speed_ramp,
              shape=(s["shape_order"], s["shape_scale"]), transits=run["transits"],
              settle_tol=run["settle_tolerance"], max_time=max_time, open_time=res.T(run.get("time")),
-             flux_heights=flux, snapshots=rec["snapshots"],
+             flux_heights=flux if pol != "1d" else [], snapshots=rec["snapshots"],
              snapshot_component=rec.get("snapshot_component") or ("Hz" if pol != "tm" else "Ez"),
              line_component=rec.get("line_component"), line_height=res.L(rec.get("line_height")),
              line_every=rec["line_every"], doppler=rec["doppler"], reference=rec["reference"],
@@ -257,6 +261,32 @@ def plan(res: Resolved) -> Plan:
              subsamples=grid["subsamples"], surfaces=surfaces, warnings=warn, notes=notes)
     _plan_warnings(p, res)
     return p
+
+
+def _check_1d(res: Resolved, notes: list) -> None:
+    """The 1D grid (Ey, Hz along x) runs one case: a transverse dipole sheet moving along x
+    through a uniform medium in a co-moving periodic cell (the bulk anomalous-Doppler set-up)."""
+    from .quantities import ScenarioError
+
+    v = res.scenario.values
+    where = res.scenario.where
+    bad = []
+    if v["run"]["kind"] != "comoving":
+        bad.append(f"run.kind = {v['run']['kind']!r}: expected 'comoving'")
+    if v["geometry"]["kind"] != "none" or v["regions"]:
+        bad.append(f"geometry.kind = {v['geometry']['kind']!r} (or [[regions]]): expected 'none' with the "
+                   "medium as geometry.background (a uniform medium along the motion)")
+    if v["source"]["kind"] != "dipole":
+        bad.append(f"source.kind = {v['source']['kind']!r}: expected 'dipole' (a uniformly moving charge "
+                   "sheet has no radiation field in 1D)")
+    elif v["source"]["axis"] != "y":
+        bad.append(f"source.axis = {v['source']['axis']!r}: expected 'y' (the 1D grid carries Ey, Hz)")
+    if bad:
+        raise ScenarioError(f"{where}: grid.polarization = '1d' runs a dipole sheet in a uniform medium; "
+                            + "; ".join(bad))
+    rec = v["record"]
+    if rec.get("flux_heights"):
+        notes.append("1D: no flux lines (record.flux_heights is ignored); the whole line is the medium")
 
 
 def _q(y, res):
@@ -286,6 +316,8 @@ def _plan_warnings(p: Plan, res: Resolved) -> None:
     if p.speed > lim:
         p.warnings.append(f"source speed {p.speed:.4g} c exceeds the grid's numerical vacuum phase velocity "
                           f"{lim:.4g} c at the wavenumbers it excites: numerical Cherenkov radiation")
+    if p.polarization == "1d":
+        return
     half_y = p.source_kind == "dipole" and p.axis == "y"
     reach = (shape.half_support + (0.5 if half_y else 0.0)) * p.cell
     surfaces = _placements(res)[2]
@@ -311,7 +343,13 @@ def _plan_warnings(p: Plan, res: Resolved) -> None:
 def build(p: Plan, res: Resolved):
     """(model, solver, source, stack) for a plan."""
     placements, stack, _s, bg = _placements(res)
-    if p.kind == "comoving":
+    if p.polarization == "1d":
+        from .boundaries import Periodic
+        from .grid import Grid
+
+        model = Model(Grid((p.nx,), (p.cell,), "1d"), background=bg, edges=Periodic())
+        dt = commensurate_dt(model, p.transit, p.courant)
+    elif p.kind == "comoving":
         params = {"alpha_max": 0.2 * p.Omega} if p.Omega > 0 else {}
         model = comoving_cell(p.length, p.half_height, p.cell, p.polarization, background=bg,
                               regions=placements, absorber=p.absorber, absorber_params=params,
@@ -564,6 +602,10 @@ class PointRunner:
                 self.snaps.append(np.array(s.fields[p.snapshot_component], dtype=np.float32))
                 self.snap_times.append(s.time)
         if p.line_component and k % p.line_every == 0:
+            if p.polarization == "1d":
+                self.line_rows.append(np.array(s.fields[p.line_component]))
+                self.line_times.append(s.time)
+                return
             if self._line_row_index is None:
                 self._line_row_index = self.model.grid.index_of(p.line_component, (0.0, p.line_height or 0.0))[1]
             self.line_rows.append(np.array(s.fields[p.line_component][:, self._line_row_index]))
@@ -728,7 +770,8 @@ class PointRunner:
             ps.append(pw)
         k, b, pw = np.concatenate(ks), np.concatenate(bs), np.concatenate(ps)
         W = Q.rest_frame_branch_powers(k * p.speed + b * p.Omega, b, pw, p.Omega, p.speed)
-        P0 = Q.free_space_power(p.omega0, abs(p.moment), 2, p.axis)
+        dims = 1 if p.polarization == "1d" else 2
+        P0 = Q.free_space_power(p.omega0, abs(p.moment), dims, p.axis if dims == 2 else "y")
         for name, s in (("reference_decay_rate_ratio", 1), ("reference_excitation_rate_ratio", -1)):
             summary[name] = {"value": W[s] / P0, "error": None, "units": "1", "normalized": W[s] / P0}
 
@@ -808,15 +851,20 @@ class PointRunner:
                                ("anomalous_power", "anomalous")):
                 fig(name, getattr(spec, attr), "power")
             fig("drag_force", spec.drag_force, "force")
-        if self.stack is not None and p.reference and p.polarization != "1d" and p.speed > 0 and \
-                p.kind == "comoving" and "spectrum" in out:
-            from .planar import MovingLineSource, PlanarReference
+        if self.stack is not None and p.reference and p.speed > 0 and p.kind == "comoving" and \
+                "spectrum" in out:
+            from .planar import Bulk1D, MovingLineSource, PlanarReference
 
             kind = "dipole" if p.source_kind == "dipole" else "charge"
-            src = MovingLineSource(kind, p.speed, p.height, p.moment if kind == "dipole" else p.charge,
-                                   p.omega0 or 0.0, p.axis if kind == "dipole" else "y")
             try:
-                ref = PlanarReference.like_simulation(self.stack, src, Shape(*p.shape), p.cell)
+                if p.polarization == "1d":
+                    shape = Shape(*p.shape)
+                    ref = Bulk1D(self.stack.bottom, p.speed, p.omega0, p.moment,
+                                 form_factor=lambda k: shape.form_factor(k, p.cell))
+                else:
+                    src = MovingLineSource(kind, p.speed, p.height, p.moment if kind == "dipole" else p.charge,
+                                           p.omega0 or 0.0, p.axis if kind == "dipole" else "y")
+                    ref = PlanarReference.like_simulation(self.stack, src, Shape(*p.shape), p.cell)
                 out["reference"] = ref.periodic(p.length)
                 tot = sum(v[1].sum() for v in out["reference"].values())
                 fig("reference_total_power", tot, "power")
@@ -835,9 +883,10 @@ class PointRunner:
                         summary[name] = {"value": val, "error": None, "units": "1", "normalized": val}
                     row = summary.get("reference_decay_rate_ratio", {}).get("value")
                     if row is not None and abs(row - one.ratio_down) > 0.1 * abs(one.ratio_down):
-                        msg = (f"the cell's row of emitters (spaced by grid.length) decays at "
-                               f"{row:.3g} Gamma_0, an isolated emitter at {one.ratio_down:.3g} Gamma_0 "
-                               "(planar reference): the cell samples k_x too coarsely for single-emitter "
+                        what = "sheets" if p.polarization == "1d" else "emitters"
+                        msg = (f"the cell's row of {what} (spaced by grid.length) decays at "
+                               f"{row:.3g} Gamma_0, an isolated one at {one.ratio_down:.3g} Gamma_0 "
+                               "(reference): the cell samples k_x too coarsely for single-emitter "
                                "rates; lengthen grid.length, or quote the single_emitter_* figures")
                         summary["warning_row_of_emitters"] = {"value": msg, "error": None, "units": "",
                                                               "normalized": None}

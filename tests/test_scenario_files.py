@@ -329,6 +329,62 @@ def test_json_summary_carries_equivalent_quantum_rates(tmp_path, capsys):
     assert p["transition_dipole"]["value"] == pytest.approx(d, rel=1e-12)
 
 
+BULK_1D = """\
+[units]
+mode = "natural"
+frequency = "1 eV"
+
+[materials.exc]
+kind = "poles"
+eps_inf = 1.0
+poles = [ { kind = "lorentz", delta_eps = 2.0, omega = 1.0, gamma = 0.3, beta_nl = "0.25 c" } ]
+
+[geometry]
+background = "exc"
+
+[grid]
+polarization = "1d"
+cell = 0.1
+length = 12.0
+
+[source]
+kind = "dipole"
+speed = "0.5 c"
+frequency = 0.6
+
+[run]
+transits = 6
+
+[record]
+snapshots = 4
+line_component = "Ey"
+"""
+
+
+def test_one_dimensional_bulk_scenario(tmp_path, capsys):
+    """grid.polarization = "1d": a dipole sheet crossing a uniform (here nonlocal) medium in a
+    periodic cell; powers per unit area, the exact bulk reference on the same k set, rates per
+    unit area; 2D-only set-ups are refused with the reason."""
+    path = write(tmp_path, BULK_1D)
+    assert main(["run", str(path), "-o", str(tmp_path / "b.h5"), "--json"]) == 0
+    p = json.loads(capsys.readouterr().out)["points"][0]
+    assert p["total_power"]["units"] == "W/m^2" and p["decay_rate"]["units"] == "1/(s m^2)"
+    for b in ("normal", "anomalous"):
+        assert p[f"{b}_power"]["value"] == pytest.approx(p[f"reference_{b}_power"]["value"], rel=0.03)
+    assert abs(p["ledger_residual"]["value"]) < 1e-10
+    with h5py.File(tmp_path / "b.h5", "r") as f:
+        comp = f["snapshots"].attrs["component"]
+        assert f["line/data"].ndim == 2 and f[f"snapshots/{comp}"].shape[0] == 4
+    assert main(["plot", str(tmp_path / "b.h5"), "--format", "png"]) == 0
+    capsys.readouterr()
+    for old, new, frag in (('[geometry]\nbackground = "exc"', '[geometry]\nkind = "half-space"\nmaterial = "exc"',
+                            "geometry.kind = 'half-space'"),
+                           ('[source]\nkind = "dipole"', '[source]\nkind = "dipole"\naxis = "x"', "source.axis = 'x'")):
+        bad = write(tmp_path, edit(BULK_1D, old, new), "bad.toml")
+        assert main(["check", str(bad)]) == 2
+        assert frag in capsys.readouterr().err
+
+
 def test_failed_write_leaves_no_complete_file(tmp_path, monkeypatch):
     import fdtd.runner as runner
 
