@@ -2,19 +2,15 @@
 
 The import package is ``fdtd``.  Data flows one way:
 scenario -> :class:`Model` -> :class:`Solver` -> recorders -> analysis -> results.
+
+The names below are loaded on first use, so that light commands (``gapwake threshold``,
+``gapwake --version``) do not pay for numba, h5py and the solver.
 """
 
 from ._version import __version__
-from .boundaries import CPML, PEC, Periodic
 from .errors import (GapwakeError, GeometryError, InstabilityError, ParameterError, ShapeError,
                      StabilityError)
-from .geometry import Everywhere, HalfSpace, Polygon, Rectangle, Slab
-from .grid import Grid
 from .materials import VACUUM, DrudePole, LorentzPole, Material, NonlocalLorentzPole, lorentz_material
-from .model import Model
-from .solver import Solver
-from .sources import ContinuousWave, GaussianPulse, PrescribedCurrent, line_current
-from .units import UnitSystem
 
 __all__ = [
     "__version__", "CPML", "PEC", "Periodic", "GapwakeError", "GeometryError", "InstabilityError",
@@ -24,13 +20,27 @@ __all__ = [
     "line_current", "UnitSystem", "load", "check", "run", "open_results", "as_arrays",
 ]
 
-_API = ("load", "check", "run", "open_results", "as_arrays")
+#: name -> module that defines it (imported on first access)
+_LAZY = {
+    "CPML": "boundaries", "PEC": "boundaries", "Periodic": "boundaries",
+    "Everywhere": "geometry", "HalfSpace": "geometry", "Polygon": "geometry", "Rectangle": "geometry",
+    "Slab": "geometry", "Grid": "grid", "Model": "model", "Solver": "solver",
+    "ContinuousWave": "sources", "GaussianPulse": "sources", "PrescribedCurrent": "sources",
+    "line_current": "sources", "UnitSystem": "units",
+    # the scenario API pulls in pint, h5py and the runner
+    "load": "api", "check": "api", "run": "api", "open_results": "api", "as_arrays": "api",
+}
 
 
 def __getattr__(name):
-    # The scenario API pulls in pint, h5py and the runner: load it on first use only.
-    if name in _API:
-        from . import api
+    if name in _LAZY:
+        import importlib
 
-        return getattr(api, name)
+        value = getattr(importlib.import_module(f".{_LAZY[name]}", __name__), name)
+        globals()[name] = value
+        return value
     raise AttributeError(f"module 'fdtd' has no attribute {name!r}")
+
+
+def __dir__():
+    return sorted(set(globals()) | set(__all__))

@@ -141,7 +141,7 @@ def main(argv=None) -> int:
         # analytic only: keep the solver, h5py and the runner out of this path
         return _threshold(args)
     from . import api
-    from .errors import GapwakeError
+    from .errors import GapwakeError, ParameterError
     from .quantities import ScenarioError
 
     try:
@@ -186,9 +186,17 @@ def main(argv=None) -> int:
     except FileNotFoundError as exc:
         print(f"gapwake: {exc}", file=sys.stderr)
         return 2
-    except GapwakeError as exc:
+    except ParameterError as exc:          # bad input (geometry, shape, time step, ...): nothing run
+        print(f"gapwake: {type(exc).__name__}: {exc}", file=sys.stderr)
+        return 2
+    except GapwakeError as exc:            # the run itself failed (e.g. an instability)
         print(f"gapwake: {type(exc).__name__}: {exc}", file=sys.stderr)
         return 1
+    except ValueError as exc:              # plot/animate: a results file without what was asked
+        if args.command not in ("plot", "animate"):
+            raise
+        print(f"gapwake {args.command}: {exc}", file=sys.stderr)
+        return 2
     return 0
 
 

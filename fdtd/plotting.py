@@ -213,10 +213,19 @@ def plot_kw_map(res: Results, outdir: Path, formats=("png", "pdf"), stem="kx_ome
                 continue
             w = res.array(f"materials/{name}/omega")
             e = res.array(f"materials/{name}/eps_real") + 1j * res.array(f"materials/{name}/eps_imag")
-            n = np.sqrt(e)
-            ok = np.abs(n.imag) < 0.2 * np.abs(n.real)
-            ax.plot(np.where(ok, w * n.real, np.nan) * kscale, w * ev, "-", color=ACCENT[(i + 1) % 4], lw=1,
-                    label=f"bulk polariton, {name}")
+            if res.has(f"materials/{name}/branch_omega"):
+                kb = res.array(f"materials/{name}/branch_k")
+                for j, wb in enumerate(np.atleast_2d(res.array(f"materials/{name}/branch_omega"))):
+                    for sgn in (1, -1):
+                        ax.plot(sgn * kb * kscale, wb * ev, "-", color=ACCENT[(i + 1) % 4], lw=1,
+                                label=f"bulk polariton (lossless), {name}" if j == 0 and sgn == 1 else None)
+            else:
+                n = np.sqrt(e)
+                ok = np.abs(n.imag) < 0.2 * np.abs(n.real)
+                ax.plot(np.where(ok, w * n.real, np.nan) * kscale, w * ev, "-", color=ACCENT[(i + 1) % 4], lw=1,
+                        label=f"bulk polariton, {name}")
+            if plan["polarization"] == "1d":
+                continue          # no surface in the 1D bulk case
             bound = e.real < -1
             ks = w * np.sqrt(np.where(bound, e.real / (e.real + 1), np.nan))
             ax.plot(ks * kscale, w * ev, "-.", color=ACCENT[(i + 2) % 4], lw=1, label=f"surface polariton, {name}")
@@ -225,8 +234,9 @@ def plot_kw_map(res: Results, outdir: Path, formats=("png", "pdf"), stem="kx_ome
     k_top = min(kx.max(), 1.5 * w_top / max(plan["speed"], 0.2))
     ax.set(xlim=(-k_top * kscale, k_top * kscale), ylim=(0, w_top * ev),
            xlabel="k_x (1/um)", ylabel="hbar omega (eV)",
-           title=f"{res.root['line'].attrs['component']} on the line y = "
-           f"{res.root['line'].attrs['height'] * u['length'] * 1e9:.4g} nm")
+           title=f"{res.root['line'].attrs['component']} " + (
+               "along x (1D)" if plan["polarization"] == "1d" else
+               f"on the line y = {res.root['line'].attrs['height'] * u['length'] * 1e9:.4g} nm"))
     ax.legend(fontsize=7, loc="upper left")
     return _save(fig, outdir, stem, formats)
 

@@ -1005,6 +1005,16 @@ def write_point(group, runner: PointRunner, data: dict) -> None:
         R.put(sub, "omega", w, "angular_frequency", u)
         R.put(sub, "eps_real", e.real, "dimensionless", u)
         R.put(sub, "eps_imag", e.imag, "dimensionless", u)
+        if m.poles:
+            # lossless bulk branches omega_j(k) (spatial dispersion included) for the map overlays
+            from .thresholds import mode_frequencies
+
+            kb = np.linspace(0.0, math.pi / p.cell, 400)
+            with np.errstate(all="ignore"):
+                wb = mode_frequencies(m, kb)
+            R.put(sub, "branch_k", kb, "wavenumber", u, "wavenumbers of the lossless bulk branches")
+            R.put(sub, "branch_omega", wb, "angular_frequency", u,
+                  "lossless bulk branches omega_j(k), one row per branch (NaN: none)")
     R.write_summary(group, data["summary"])
     group.attrs["plan"] = p.to_json()
 
