@@ -385,6 +385,27 @@ def test_one_dimensional_bulk_scenario(tmp_path, capsys):
         assert frag in capsys.readouterr().err
 
 
+def test_grid_cutoff_warnings_before_and_after_a_run(tmp_path, capsys):
+    """A slow oscillator (0.1 c) in a local Lorentz medium: its anomalous line meets the lower
+    polariton only at k ~ (Omega + omega0)/v, near the grid's cutoff, so `gapwake check` warns
+    (the threshold calculator: reachable with k <= pi/dx, not with k dx <= pi/6) and the run
+    summary flags that the anomalous power sits at k_x dx > pi/6.  With a physical cutoff
+    (beta_nl = 0.25 c above the speed) there is nothing to warn about."""
+    local = edit(edit(edit(BULK_1D, ', beta_nl = "0.25 c"', ""), 'speed = "0.5 c"', 'speed = "0.1 c"'),
+                 "transits = 6", "transits = 2")
+    local = edit(local, "length = 12.0", "length = 6.0")
+    path = write(tmp_path, local)
+    assert main(["check", str(path)]) == 0
+    assert "only through wavenumbers near its cutoff" in capsys.readouterr().out
+    assert main(["run", str(path), "-o", str(tmp_path / "l.h5"), "--json"]) == 0
+    p = json.loads(capsys.readouterr().out)["points"][0]
+    assert p["anomalous_share_near_grid_cutoff"]["value"] > 0.5
+    assert "property of the grid" in p["warning_grid_cutoff"]["value"]
+    nonlocal_ = write(tmp_path, edit(local, "gamma = 0.3 }", 'gamma = 0.3, beta_nl = "0.25 c" }'), "nl.toml")
+    assert main(["check", str(nonlocal_)]) == 0
+    assert "near its cutoff" not in capsys.readouterr().out
+
+
 def test_failed_write_leaves_no_complete_file(tmp_path, monkeypatch):
     import fdtd.runner as runner
 
