@@ -8,7 +8,7 @@ Outside results used (beside each check):
 * Nonlocal (exciton-polariton) pole chi = delta_eps W^2/(W^2 + beta^2 k^2 - w^2):
   J. J. Hopfield and D. G. Thomas, Phys. Rev. 132, 563 (1963) (as cited in fdtd/materials.py).
 Everything else is compared with closed forms derived in the docstrings and in
-docs/_draft_thresholds_for_developers.md, or with the simulator itself.
+DEVELOPERS.md ("Speed thresholds"), or with the simulator itself.
 """
 
 import json
@@ -443,3 +443,39 @@ def test_api_bad_input():
         T.Cutoff.grid(0.0, 0.1)
     with pytest.raises(f.ParameterError, match="needs a 2D geometry"):
         T.cherenkov_band(LZ, 0.5, geometry=T.Geometry.bulk(1))
+
+
+# --------------------------------------------------- grid thresholds with a physical cutoff
+def test_grid_thresholds_converge_with_a_nonlocal_pole_and_not_without():
+    """Refining the grid (dx halved three times, Courant 0.95 in 1D): with the nonlocal pole the
+    threshold over the well-resolved wavenumbers (k dx <= pi/6) converges at first order to
+    beta_nl (within the grid's phase error at pi/6), and the threshold over all grid
+    wavenumbers converges too -- to the
+    speed of the slow branch at pi/dx on the grid, (2/(pi C)) asin(C beta_nl) (the Yee grid
+    slows a wave at pi/dx by 2/pi; C = dt/dx), a property of the grid that the summary and
+    `gapwake check` flag.  Without the nonlocal pole both fall in proportion to dx."""
+    beta, w0 = 0.15, 0.1
+    nl = T.lossless(f.Material(EINF, (f.NonlocalLorentzPole(DE, W, 0.0, beta),), "nl"))
+    dxs = [0.05, 0.025, 0.0125, 0.00625]
+    res, full, loc = [], [], []
+    for dx in dxs:
+        dt = 0.95 * dx
+        res.append(T.anomalous_threshold(nl, w0, T.Cutoff.resolved(dx, dt)).speed)
+        full.append(T.anomalous_threshold(nl, w0, T.Cutoff.grid(dx, dt)).speed)
+        loc.append(T.anomalous_threshold(LZ, w0, T.Cutoff.grid(dx, dt)).speed)
+    res, full, loc = map(np.array, (res, full, loc))
+    # resolved: converges (first order or faster) towards the speed of the discrete
+    # branch at k dx = pi/6, (12/(pi C)) asin(C beta sin(pi/12)): beta_nl within the grid's
+    # 1.1 % phase error there
+    limit_res = 12 / (np.pi * 0.95) * math.asin(0.95 * beta * math.sin(np.pi / 12))
+    err = np.abs(res - limit_res)
+    assert np.all(err[:-1] / err[1:] > 1.6), err       # first order or better (the c/k^2 term)
+    assert err[-1] < 0.02 * limit_res, (res, limit_res)     # seen: 1.1 % at dx = 0.00625
+    assert abs(limit_res / beta - 1) < 0.012
+    # all grid wavenumbers: successive changes halve, towards the Nyquist-speed limit
+    limit = 2 / (np.pi * 0.95) * math.asin(0.95 * beta)
+    err = full - limit
+    assert np.all(err > 0) and np.all(err[:-1] / err[1:] > 1.8), err     # seen: 2.6, 2.3, 2.2
+    assert err[-1] < 3e-3 * limit, (full, limit)
+    # local: proportional to dx, no limit above zero
+    assert np.allclose(loc[:-1] / loc[1:], 2.0, rtol=0.02), loc
