@@ -339,7 +339,7 @@ def test_report_table_has_units_and_si_columns():
                  "criterion", "not a law", "loss is ignored"):
         assert unit in text
     d = rep.as_dict()
-    assert len(d["rows"]) == 6          # local: none, grid, grid+periodic; nonlocal: the same
+    assert len(d["rows"]) == 8          # local: none, grid, grid+periodic, resolved; nonlocal: the same
     r0 = d["rows"][0]["anomalous"]
     assert r0["speed"]["units"] == "c"
     assert r0["k_si"]["value"] == pytest.approx(r0["k"]["value"] / 1e-6)
