@@ -39,6 +39,12 @@ def __getattr__(name):
         value = getattr(importlib.import_module(f".{_LAZY[name]}", __name__), name)
         globals()[name] = value
         return value
+    import importlib.util
+
+    if not name.startswith("_") and importlib.util.find_spec(f"{__name__}.{name}") is not None:
+        import importlib
+
+        return importlib.import_module(f".{name}", __name__)     # fdtd.stability, fdtd.planar, ...
     raise AttributeError(f"module 'fdtd' has no attribute {name!r}")
 
 
