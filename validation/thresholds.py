@@ -182,7 +182,78 @@ def main() -> None:
              "resonance speeds of the cutoff harmonics (section 2).")
     rep.image(save(fig, "thresholds_vs_cutoff.png"), "Anomalous-Doppler threshold against the "
               "cutoff wavenumber, with the simulator's points.")
+    physical_cutoff(rep)
     print(rep.write())
+
+
+def _scan_smooth(med, v, dx, w0, L=12.0, gamma=0.05):
+    """Anomalous power of a dipole sheet with the default smooth shape (cubic x 2)."""
+    from fdtd.shapes import Shape
+
+    model = f.Model(f.Grid((int(round(L / dx)),), (dx,), "1d"), background=med, edges=f.Periodic())
+    s = f.Solver(model, dt=commensurate_dt(model, L / v))
+    src = MovingDipole(1.0, w0, UniformMotion((0.0,), (v,)), axis="y", ramp=20.0, shape=Shape(3, 2))
+    s.add_source(src)
+    t0 = 20.0 / math.sqrt(1 - v * v) + 6.0 / gamma
+    rec = DopplerWorkRecorder(s, src, v, src.lab_frequency(), start=t0, duration=2 * L / v,
+                              m_max=int(round(L / dx)) // 2)
+    s.run(until=t0 + 2 * L / v)
+    return rec.result().anomalous
+
+
+def physical_cutoff(rep) -> None:
+    """Section 4: how the anomalous power at low speed depends on the grid, with and without
+    spatial dispersion."""
+    beta, w0, gamma = 0.15, 0.1, 0.05
+    media = {"nonlocal": f.Material(1.0, (f.NonlocalLorentzPole(2.0, 1.0, gamma, beta),), "nl"),
+             "local": f.Material(1.0, (f.LorentzPole(2.0, 1.0, gamma),), "local")}
+    speeds = np.round(np.arange(0.03, 0.25, 0.02), 3)
+    cells = (0.05, 0.025)
+    P = {(name, dx): np.array([_scan_smooth(med, v, dx, w0) for v in speeds])
+         for name, med in media.items() for dx in cells}
+    fig, axes = figure(1, 2, figsize=(10, 3.8))
+    onsets = []
+    for ax, (name, med) in zip(axes, media.items()):
+        for c, dx in enumerate(cells):
+            p = P[(name, dx)]
+            res = T.anomalous_threshold(T.lossless(med), w0, T.Cutoff.resolved(dx, 0.95 * dx)).speed
+            full = T.anomalous_threshold(T.lossless(med), w0, T.Cutoff.grid(dx, 0.95 * dx)).speed
+            i = int(np.argmax(p >= 0.1 * p[-1]))
+            onsets.append([name, dx, f"{full:.4f}", f"{res:.4f}", f"{speeds[i - 1]:.2f} -> {speeds[i]:.2f}"])
+            ax.semilogy(speeds, p, "o-", color=COLORS[c], ms=4, label=f"dx = {dx}")
+            ax.axvline(res, color=COLORS[c], ls="--", lw=1)
+        ax.set(title=f"{name}" + (f" (beta_nl = {beta})" if name == "nonlocal" else ""),
+               xlabel="source speed v [c]")
+        ax.legend(fontsize=8)
+    axes[0].set_ylabel("anomalous-branch power [normalized, per unit area]")
+    rows = [[f"{v:.2f}"] + [f"{P[(n, d)][j]:.2e}" for n in media for d in cells]
+            + [f"{P[(n, cells[1])][j] / P[(n, cells[0])][j]:.2f}" for n in media]
+            for j, v in enumerate(speeds)]
+    rep.section("4. A physical cutoff: how the grid shapes the anomalous branch")
+    rep.para(f"Same medium with loss gamma = {gamma}, with and without spatial dispersion "
+             f"beta_nl = {beta} (Hopfield-Thomas pole); oscillator w0 = {w0}; the default smooth "
+             "source shape (cubic B-spline over 8 cells, form factor sinc^8(k dx), zero at pi/dx); "
+             "L = 12; two grids.  Dashed: the threshold over each grid's well-resolved wavenumbers "
+             "(k dx <= pi/6).  The last two columns are the power on the finer grid over that on "
+             "the coarser one: a grid-independent result gives 1.")
+    rep.table(["v [c]"] + [f"{n}, dx = {d}" for n in media for d in cells]
+              + [f"{n}: fine/coarse" for n in media], rows)
+    rep.para("Onset (first speed where the power reaches 10 % of its value at 0.23 c) and the analytic "
+             "thresholds over all grid wavenumbers and over the resolved ones:")
+    rep.table(["medium", "dx", "all grid k [c]", "resolved k [c]", "onset"], onsets)
+    rep.para("Reading: without spatial dispersion the anomalous power at the lowest speeds is whatever "
+             "the grid lets through (it changes by an order of magnitude between the two grids at "
+             "0.03 c: the continuum threshold is 0 and the grid, with the source's grid-bound shape, "
+             "is the cutoff); the local model has no threshold, only a smooth rise, and a 10 % onset "
+             "criterion lands where its emission moves to well-resolved wavenumbers (the same step on "
+             "both grids here).  With the nonlocal pole the power below beta_nl stays small and "
+             "grid-independent (within 10 %) and rises steeply above it; the grids differ only next "
+             "to beta_nl (x1.5-1.9), where the crossing wavenumber runs off to the grid's cutoff.  "
+             "What remains below beta_nl comes from the slow waves near pi/dx (the all-grid-k "
+             "threshold, about 2 beta_nl/pi: the Yee grid slows waves at pi/dx by 2/pi) and is "
+             "flagged by `gapwake check` and the run summary.")
+    rep.image(save(fig, "thresholds_physical_cutoff.png"), "Anomalous-branch power against speed with "
+              "and without spatial dispersion, two grids each.")
 
 
 if __name__ == "__main__":
