@@ -18,12 +18,12 @@ and it derives the largest stable time step (:func:`fdtd.stability.max_stable_dt
 from __future__ import annotations
 
 from collections.abc import Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 import numpy as np
 
 from . import _checks
-from .boundaries import CPML, AxisProfile, Boundary, Periodic, axis_profile, normalize_edges
+from .boundaries import CPML, AxisProfile, Boundary, axis_profile, normalize_edges
 from .errors import GeometryError, ParameterError, StabilityError
 from .geometry import Placement, Region, cell_map_fractions, material_fractions
 from .grid import Grid

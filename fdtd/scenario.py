@@ -21,7 +21,6 @@ import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 
-import numpy as np
 import scipy.constants as sc
 
 from . import quantities as Q

@@ -400,7 +400,6 @@ class DopplerFluxRecorder:
         self.k = 2 * np.pi * msig[self.m_index] / self.L
         self.lines = (0,) if self.Omega == 0.0 else (1, -1)
         n_win = 3 if self.duration is not None else 1
-        shape = (n_win, len(self.lines), rows.size, self.m_index.size)
         self._line_freq = np.array([s_ * self.Omega for s_ in self.lines])
         self._src_index = np.where(self.m_index <= nx // 2, self.m_index, nx - self.m_index).astype(np.int64)
         self._conj = self.m_index > nx // 2

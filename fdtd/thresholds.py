@@ -1027,6 +1027,17 @@ class ThresholdReport:
         return self.table()
 
 
+def _nonlocal_model(material: Material, beta_nl: float | None) -> Material | None:
+    """The lossless spatially dispersive model: the material with ``beta_nl`` given to its
+    Lorentz poles, or the material itself if it has nonlocal poles; None if neither applies."""
+    nonloc = None
+    if beta_nl is not None:
+        nonloc = lossless(with_nonlocal(material, beta_nl))
+    elif material.is_nonlocal:
+        nonloc = lossless(material)
+    return nonloc if nonloc is not None and nonloc.is_nonlocal else None
+
+
 def threshold_report(material: Material, omega0: float | None = None, speed: float | None = None,
                      geometry: Geometry | None = None, scheme: Scheme | None = None,
                      period: float | None = None, beta_nl: float | None = None,
@@ -1078,15 +1089,10 @@ def threshold_report(material: Material, omega0: float | None = None, speed: flo
         if period is not None:
             models.append(("local", base, Cutoff(scheme=scheme, period=period)))
         models.append(("local", base, Cutoff.resolved(scheme.dx, scheme.dt)))
-    nonloc = None
-    if beta_nl is not None:
-        nonloc = lossless(with_nonlocal(material, beta_nl))
-    elif material.is_nonlocal:
-        nonloc = lossless(material)
-    if nonloc is not None and not nonloc.is_nonlocal:
+    nonloc = _nonlocal_model(material, beta_nl)
+    if nonloc is None and beta_nl is not None:
         notes = list(notes) + [f"beta_nl = {beta_nl:g} ignored: the material has no Lorentz pole "
                                "to make spatially dispersive"]
-        nonloc = None
     if nonloc is not None:
         bn = max(p.beta_nl for p in nonloc.poles if isinstance(p, NonlocalLorentzPole))
         models.append((f"nonlocal beta_nl={bn:g}", nonloc, Cutoff()))
@@ -1164,13 +1170,7 @@ def plot_threshold_vs_cutoff(material: Material, path, omega0: float | None = No
     geometry = geometry or Geometry()
     bulk = Geometry.bulk(geometry.dims)
     base = lossless(local_version(material))
-    nonloc = None
-    if beta_nl is not None:
-        nonloc = lossless(with_nonlocal(material, beta_nl))
-    elif material.is_nonlocal:
-        nonloc = lossless(material)
-    if nonloc is not None and not nonloc.is_nonlocal:
-        nonloc = None
+    nonloc = _nonlocal_model(material, beta_nl)
     P = _poles(base)
     scale = max([math.sqrt(a) for a in P.a0 if a > 0] + [float(omega0 or 0.0), 1e-3])
     lo, hi = k_range if k_range is not None else (0.3 * scale, 1e3 * scale)

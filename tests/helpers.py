@@ -29,3 +29,13 @@ def frequencies_from_roots(z: np.ndarray, dt: float) -> np.ndarray:
 def loglog_slope(h, err) -> float:
     """Slope of log(err) against log(h) (the observed convergence order)."""
     return float(np.polyfit(np.log(h), np.log(err), 1)[0])
+
+
+def record_point(solver, comp: str, index, steps: int) -> np.ndarray:
+    """Time series (steps,) of ``solver.fields[comp][index]``, sampled before each step."""
+    out = np.empty(steps)
+    a = solver.fields[comp]
+    for n in range(steps):
+        out[n] = a[index]
+        solver.step()
+    return out

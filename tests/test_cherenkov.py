@@ -9,7 +9,6 @@ Doppler-resolved work, Hann-tapered window of whole transit times.
 """
 
 import numpy as np
-import pytest
 from helpers import loglog_slope
 
 import fdtd as f

@@ -12,7 +12,7 @@ w^2 eps(w) = c^2 k^2 (e.g. C. Kittel, Introduction to Solid State Physics,
 
 import numpy as np
 import pytest
-from helpers import frequencies_from_roots, loglog_slope, prony_roots
+from helpers import frequencies_from_roots, loglog_slope, prony_roots, record_point
 
 import fdtd as f
 
@@ -22,13 +22,7 @@ def _vacuum_yee_omega(k, spacing, dt):
     return 2.0 / dt * np.arcsin(dt * np.sqrt(s))
 
 
-def _record(solver, comp, index, steps):
-    out = np.empty(steps)
-    a = solver.fields[comp]
-    for n in range(steps):
-        out[n] = a[index]
-        solver.step()
-    return out
+_record = record_point
 
 
 @pytest.mark.parametrize("m", [1, 5, 12])

@@ -13,7 +13,7 @@ import pytest
 
 import fdtd as f
 from fdtd.planar import Bulk1D, MovingLineSource, PlanarReference, Stack
-from fdtd.setups import commensurate_dt, dipole_in_comoving_cell, light_line_safe_length
+from fdtd.setups import dipole_in_comoving_cell, light_line_safe_length
 from fdtd.shapes import Shape
 from fdtd.spectral import DopplerWorkRecorder
 
@@ -119,19 +119,12 @@ def test_bulk_1d_dipole_sheet_matches_reference():
     """1D: a transverse dipole sheet moving through a uniform lossy Lorentz medium, the
     simplest setting with both Doppler branches (loss 0.3 so that slow polaritons near the
     Doppler lines settle within the run)."""
+    from fdtd.setups import dipole_sheet_in_bulk
+
     med = f.Material(1.0, (f.LorentzPole(2.0, 1.0, 0.3),), "lz")
     v, w0, L, d = 0.5, 0.6, 12.0, 0.1
     shape = Shape(3, 2)
-    model = f.Model(f.Grid((int(round(L / d)),), (d,), "1d"), background=med, edges=f.Periodic())
-    s = f.Solver(model, dt=commensurate_dt(model, L / v))
-    from fdtd.moving import MovingDipole
-    from fdtd.worldlines import UniformMotion
-
-    src = MovingDipole(1.0, w0, UniformMotion((0.0,), (v,)), axis="y", ramp=40.0, shape=shape)
-    s.add_source(src)
-    rec = DopplerWorkRecorder(s, src, v, src.lab_frequency(), start=400.0, duration=10 * L / v)
-    s.run(until=400.0 + 10 * L / v)
-    sim = rec.result()
+    sim, _s = dipole_sheet_in_bulk(med, v, w0, L, d, shape=shape, ramp=40.0, start=400.0, transits=10)
     per = Bulk1D(med, v, w0, form_factor=lambda k: shape.form_factor(k, d)).periodic(L)
     _compare(sim, per, sum(p.sum() for _k, p in per.values()))
 

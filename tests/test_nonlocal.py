@@ -13,7 +13,7 @@ import warnings
 
 import numpy as np
 import pytest
-from helpers import frequencies_from_roots, loglog_slope, prony_roots
+from helpers import frequencies_from_roots, loglog_slope, prony_roots, record_point
 
 import fdtd as f
 from fdtd.kernels import nonlocal_pole as nlk
@@ -26,13 +26,7 @@ def _medium(gamma=GAMMA, beta=BETA, eps_inf=EPS_INF):
     return f.Material(eps_inf, (f.NonlocalLorentzPole(DELTA_EPS, OMEGA, gamma, beta),), "exciton")
 
 
-def _record(solver, comp, index, steps):
-    out = np.empty(steps)
-    a = solver.fields[comp]
-    for n in range(steps):
-        out[n] = a[index]
-        solver.step()
-    return out
+_record = record_point
 
 
 def _discrete_roots(mat, K2, dt):
@@ -358,25 +352,16 @@ def test_moving_dipole_sheet_in_nonlocal_bulk_matches_reference():
     beta_nl."""
     from test_doppler_vs_reference import _compare
 
-    from fdtd.moving import MovingDipole
     from fdtd.planar import Bulk1D
-    from fdtd.setups import commensurate_dt
+    from fdtd.setups import dipole_sheet_in_bulk
     from fdtd.shapes import Shape
-    from fdtd.spectral import DopplerWorkRecorder
-    from fdtd.worldlines import UniformMotion
 
     med = f.Material(1.0, (f.NonlocalLorentzPole(2.0, 1.0, 0.3, 0.25),), "nl")
     v, w0, L, d = 0.5, 0.6, 12.0, 0.1
     shape = Shape(3, 2)
-    model = f.Model(f.Grid((int(round(L / d)),), (d,), "1d"), background=med, edges=f.Periodic())
-    s = f.Solver(model, dt=commensurate_dt(model, L / v))
-    src = MovingDipole(1.0, w0, UniformMotion((0.0,), (v,)), axis="y", ramp=40.0, shape=shape)
-    s.add_source(src)
     # the m = -1 harmonic sits next to a weakly damped polariton and needs ~700 time units
     # to settle (at t = 300 it was still 6 % off; DEVELOPERS.md, "Periodic cell pitfalls")
-    rec = DopplerWorkRecorder(s, src, v, src.lab_frequency(), start=700.0, duration=8 * L / v)
-    s.run(until=700.0 + 8 * L / v)
-    sim = rec.result()
+    sim, _s = dipole_sheet_in_bulk(med, v, w0, L, d, shape=shape, ramp=40.0, start=700.0, transits=8)
     ff = lambda k: shape.form_factor(k, d)  # noqa: E731
     per = Bulk1D(med, v, w0, form_factor=ff).periodic(L)
     total = sum(p.sum() for _k, p in per.values())

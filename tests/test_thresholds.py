@@ -226,11 +226,8 @@ def _anomalous_power_scan(dx, n_cells, speeds, gamma, k_only=None):
     """1D periodic co-moving cell (as tests/test_doppler_vs_reference.py::
     test_bulk_1d_dipole_sheet_matches_reference), linear shape; anomalous-branch power per speed
     (only the points with |k_x| = k_only if given).  Returns (power (S,), dt (S,), model)."""
-    from fdtd.moving import MovingDipole
-    from fdtd.setups import commensurate_dt
+    from fdtd.setups import dipole_sheet_in_bulk
     from fdtd.shapes import Shape
-    from fdtd.spectral import DopplerWorkRecorder
-    from fdtd.worldlines import UniformMotion
 
     med = f.Material(EINF, (f.LorentzPole(DE, W, gamma),), "lossy Lorentz")
     L = n_cells * dx
@@ -238,12 +235,8 @@ def _anomalous_power_scan(dx, n_cells, speeds, gamma, k_only=None):
     settle = 6.0 / gamma                       # transients near the branch decay as exp(-gamma t/2)
     out, dts = [], []
     for v in speeds:
-        s = f.Solver(model, dt=commensurate_dt(model, L / v), ledger=True)
-        src = MovingDipole(1.0, W0, UniformMotion((0.0,), (v,)), axis="y", ramp=10.0, shape=Shape(1, 1))
-        s.add_source(src)
-        rec = DopplerWorkRecorder(s, src, v, src.lab_frequency(), start=settle, duration=2 * L / v)
-        s.run(until=settle + 2 * L / v)
-        r = rec.result()
+        r, s = dipole_sheet_in_bulk(med, v, W0, L, dx, shape=Shape(1, 1), ramp=10.0, start=settle,
+                                    model=model)
         sel = r.branch == -1
         if k_only is not None:
             sel &= np.isclose(np.abs(r.kx), k_only)

@@ -22,9 +22,9 @@ import fdtd as f  # noqa: E402
 from _report import COLORS, Report, figure, save  # noqa: E402
 from fdtd.moving import MovingDipole  # noqa: E402
 from fdtd.planar import Bulk1D, MovingLineSource, PlanarReference, Stack  # noqa: E402
-from fdtd.setups import commensurate_dt, dipole_in_comoving_cell, light_line_safe_length  # noqa: E402
+from fdtd.setups import dipole_in_comoving_cell, dipole_sheet_in_bulk, light_line_safe_length  # noqa: E402
 from fdtd.shapes import Shape  # noqa: E402
-from fdtd.spectral import DopplerWorkRecorder, PassageWorkRecorder  # noqa: E402
+from fdtd.spectral import PassageWorkRecorder  # noqa: E402
 from fdtd.worldlines import UniformMotion  # noqa: E402
 
 LZ = f.Material(1.0, (f.LorentzPole(2.0, 1.0, 0.1),), "lossy Lorentz (eps_inf 1, de 2, Omega 1, gamma 0.1)")
@@ -166,13 +166,7 @@ def bulk(rep):
     rows = []
     for v in (0.2, 0.35, 0.5, 0.7):
         w0, L, d = 0.6, 12.0, 0.05
-        model = f.Model(f.Grid((int(round(L / d)),), (d,), "1d"), background=med, edges=f.Periodic())
-        s = f.Solver(model, dt=commensurate_dt(model, L / v))
-        src = MovingDipole(1.0, w0, UniformMotion((0.0,), (v,)), axis="y", ramp=40.0, shape=SHAPE)
-        s.add_source(src)
-        rec = DopplerWorkRecorder(s, src, v, src.lab_frequency(), start=400.0, duration=10 * L / v)
-        s.run(until=400.0 + 10 * L / v)
-        sim = rec.result()
+        sim, _s = dipole_sheet_in_bulk(med, v, w0, L, d, shape=SHAPE, ramp=40.0, start=400.0, transits=10)
         per = Bulk1D(med, v, w0, form_factor=lambda k: SHAPE.form_factor(k, d)).periodic(L)
         tr = sum(p.sum() for _k, p in per.values())
         cont = Bulk1D(med, v, w0).solve()

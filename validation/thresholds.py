@@ -30,11 +30,8 @@ sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
 import fdtd as f  # noqa: E402
 from _report import COLORS, Report, figure, save  # noqa: E402
 from fdtd import thresholds as T  # noqa: E402
-from fdtd.moving import MovingDipole  # noqa: E402
-from fdtd.setups import commensurate_dt  # noqa: E402
+from fdtd.setups import dipole_sheet_in_bulk  # noqa: E402
 from fdtd.shapes import Shape  # noqa: E402
-from fdtd.spectral import DopplerWorkRecorder  # noqa: E402
-from fdtd.worldlines import UniformMotion  # noqa: E402
 
 W, DE, EINF, W0 = 1.0, 2.0, 1.0, 0.6
 LOSSLESS = f.Material(EINF, (f.LorentzPole(DE, W, 0.0),), "Lorentz (eps_inf 1, de 2, Omega 1)")
@@ -51,12 +48,8 @@ def scan(dx, n, speeds, gamma):
     settle = 6.0 / gamma
     tot, top, dts = [], [], []
     for v in speeds:
-        s = f.Solver(model, dt=commensurate_dt(model, L / v))
-        src = MovingDipole(1.0, W0, UniformMotion((0.0,), (v,)), axis="y", ramp=10.0, shape=Shape(1, 1))
-        s.add_source(src)
-        rec = DopplerWorkRecorder(s, src, v, src.lab_frequency(), start=settle, duration=2 * L / v)
-        s.run(until=settle + 2 * L / v)
-        r = rec.result()
+        r, s = dipole_sheet_in_bulk(med, v, W0, L, dx, shape=Shape(1, 1), ramp=10.0, start=settle,
+                                    model=model)
         an = r.branch == -1
         tot.append(r.power[an].sum())
         top.append(r.power[an & np.isclose(np.abs(r.kx), k_M)].sum())
@@ -188,17 +181,8 @@ def main() -> None:
 
 def _scan_smooth(med, v, dx, w0, L=12.0, gamma=0.05):
     """Anomalous power of a dipole sheet with the default smooth shape (cubic x 2)."""
-    from fdtd.shapes import Shape
-
-    model = f.Model(f.Grid((int(round(L / dx)),), (dx,), "1d"), background=med, edges=f.Periodic())
-    s = f.Solver(model, dt=commensurate_dt(model, L / v))
-    src = MovingDipole(1.0, w0, UniformMotion((0.0,), (v,)), axis="y", ramp=20.0, shape=Shape(3, 2))
-    s.add_source(src)
     t0 = 20.0 / math.sqrt(1 - v * v) + 6.0 / gamma
-    rec = DopplerWorkRecorder(s, src, v, src.lab_frequency(), start=t0, duration=2 * L / v,
-                              m_max=int(round(L / dx)) // 2)
-    s.run(until=t0 + 2 * L / v)
-    return rec.result().anomalous
+    return dipole_sheet_in_bulk(med, v, w0, L, dx, ramp=20.0, start=t0)[0].anomalous
 
 
 def physical_cutoff(rep) -> None:
