@@ -54,6 +54,10 @@ class Natural:
         return sc.c / self.omega_ref
 
 
+def _article(kind: str) -> str:
+    return "an" if kind[:1] in "aeiou" else "a"
+
+
 def _err(where: str, key: str, value, expected: str) -> ScenarioError:
     return ScenarioError(f"{where}: {key} = {value!r}: expected {expected}")
 
@@ -63,7 +67,7 @@ def parse(value, kind: str, key: str = "?", where: str = "scenario", natural: Na
     if kind not in KINDS:
         raise ValueError(f"unknown quantity kind {kind!r}")
     if isinstance(value, bool):
-        raise _err(where, key, value, f"a {kind.replace('_', ' ')} (a number or a string with units)")
+        raise _err(where, key, value, f"{_article(kind)} {kind.replace('_', ' ')} (a number or a string with units)")
     if isinstance(value, (int, float)):
         x = float(value)
         if not math.isfinite(x):
@@ -73,11 +77,11 @@ def parse(value, kind: str, key: str = "?", where: str = "scenario", natural: Na
                         "angular_frequency": natural.omega_ref, "rate": natural.omega_ref}.get(kind, 1.0)
         return x          # SI, or beta for a speed
     if not isinstance(value, str):
-        raise _err(where, key, value, f"a {kind.replace('_', ' ')} (a number or a string with units)")
+        raise _err(where, key, value, f"{_article(kind)} {kind.replace('_', ' ')} (a number or a string with units)")
     try:
         q = _UREG.Quantity(value)
     except Exception:
-        raise _err(where, key, value, f"a {kind.replace('_', ' ')} with units, e.g. "
+        raise _err(where, key, value, f"{_article(kind)} {kind.replace('_', ' ')} with units, e.g. "
                    + _EXAMPLES[kind]) from None
     mag = float(q.magnitude)
     if not math.isfinite(mag):
@@ -109,7 +113,7 @@ def parse(value, kind: str, key: str = "?", where: str = "scenario", natural: Na
             return float(q.to("C").magnitude)
         return float(q.to("dimensionless").magnitude)
     except pint.DimensionalityError:
-        raise _err(where, key, value, f"a {kind.replace('_', ' ')}, e.g. {_EXAMPLES[kind]} "
+        raise _err(where, key, value, f"{_article(kind)} {kind.replace('_', ' ')}, e.g. {_EXAMPLES[kind]} "
                    f"(got a quantity of dimension {dim})") from None
 
 
