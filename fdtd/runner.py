@@ -800,7 +800,8 @@ class PointRunner:
             return
         summary["anomalous_share_near_grid_cutoff"] = {
             "value": share, "error": None, "units": "1", "normalized": share}
-        if share > GRID_CUTOFF_SHARE and spec.anomalous > 1e-6 * abs(spec.total):   # above round-off
+        significant = spec.anomalous > max(1e-6 * abs(spec.total), 2.0 * spec.error("anomalous"))
+        if share > GRID_CUTOFF_SHARE and significant:
             msg = (f"{100 * share:.0f} % of the anomalous-branch power comes from k_x dx > pi/6 (fewer than "
                    "12 cells per wavelength, near the grid's cutoff pi/dx): there it is a property of the "
                    "grid, not of the physics; refine grid.cell and watch whether it moves, or give the "
@@ -963,14 +964,15 @@ GRID_CUTOFF_SHARE = 0.5
 
 
 def grid_cutoff_share(spec, cell: float) -> float | None:
-    """Share of the anomalous-branch power carried by k_x dx > GRID_CUTOFF_KDX (None if the
-    anomalous branch carries no power)."""
+    """Share of the anomalous-branch power (sum of |P| over its points) carried by
+    k_x dx > GRID_CUTOFF_KDX (None if the anomalous branch carries no power)."""
     sel = spec.branch == -1
-    tot = float(np.sum(spec.power[sel]))
+    # |P| per point: points the window could not settle may come out slightly negative
+    tot = float(np.sum(np.abs(spec.power[sel])))
     if not sel.any() or tot <= 0:
         return None
     hi = sel & (np.abs(spec.kx) * cell > GRID_CUTOFF_KDX)
-    return float(np.sum(spec.power[hi])) / tot
+    return float(np.sum(np.abs(spec.power[hi]))) / tot
 
 
 def _field_quantity(component: str) -> str:
