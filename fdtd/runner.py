@@ -43,6 +43,7 @@ from .setups import auto_sampling, commensurate_dt, comoving_cell, light_line_sa
 from .shapes import Shape
 from .solver import Solver
 from .spectral import DopplerFluxRecorder, DopplerWorkRecorder, PassageWorkRecorder
+from .thresholds import RESOLVED_KDX
 from .worldlines import UniformMotion
 
 
@@ -326,7 +327,7 @@ def _anomalous_grid_warning(p: Plan, res: Resolved) -> None:
             if not m.poles:
                 continue
             v_grid = th.anomalous_threshold(m, p.omega0, th.Cutoff.grid(p.cell, dt), geo).speed
-            v_res = th.anomalous_threshold(m, p.omega0, th.Cutoff(k_max=math.pi / (6 * p.cell)), geo).speed
+            v_res = th.anomalous_threshold(m, p.omega0, th.Cutoff.resolved(p.cell, dt), geo).speed
             if np.isfinite(v_grid) and v_grid <= p.speed and not (np.isfinite(v_res) and v_res <= p.speed):
                 p.warnings.append(
                     f"anomalous-Doppler emission into {m.name!r} at {p.speed:.3g} c is possible on this grid "
@@ -958,8 +959,9 @@ class PointRunner:
 #: anomalous power at k_x dx above this (fewer than 12 cells per wavelength) counts as "near
 #: the grid's cutoff" pi/dx: there the scheme's phase error is several per cent and the
 #: lower polariton's discrete branch departs from the continuum one (common practice: 10-20
-#: cells per wavelength for a few per cent of phase error on a Yee grid)
-GRID_CUTOFF_KDX = math.pi / 6
+#: cells per wavelength for a few per cent of phase error on a Yee grid); the same constant
+#: as the threshold calculator's "resolved" wavenumbers
+GRID_CUTOFF_KDX = RESOLVED_KDX
 GRID_CUTOFF_SHARE = 0.5
 
 
