@@ -206,7 +206,9 @@ def material_fractions(grid: Grid, component: str, placements: Sequence[Placemen
         if not isinstance(p.material, Material):
             raise ParameterError(f"placement material {p.material!r}: expected a Material")
         for k, m in enumerate(materials):
-            if m is p.material:
+            # equal by value (same name, eps_inf and poles) is the same medium: one pole group,
+            # so that a spatially dispersive medium split into two regions has no inner surface
+            if m is p.material or m == p.material:
                 labels_of.append(k)
                 break
         else:

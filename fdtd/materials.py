@@ -222,8 +222,9 @@ class NonlocalLorentzPole(Pole):
     ``D = beta_nl^2``), with Pekar's additional boundary condition ``P = 0`` at
     the surface of the medium (S. I. Pekar, Sov. Phys. JETP 6, 785 (1958)).
     On the grid ``nabla^2`` is the standard second-difference Laplacian on
-    each polarization component's own lattice, and ``P = 0`` on the nodes
-    next to the material (see DEVELOPERS.md, "Nonlocal pole").
+    each polarization component's own lattice, over the nodes wholly inside the
+    medium, with ``P = 0`` on its surface imposed through a ghost value (see
+    DEVELOPERS.md, "Nonlocal pole").
 
     Parameters
     ----------
@@ -263,10 +264,9 @@ class NonlocalLorentzPole(Pole):
         return w2, self.gamma, self.delta_eps * w2
 
     def laplacian_coefficient(self) -> float:
-        # part-filled cells scale the Laplacian term with b (both by the fill
-        # fraction): the ADE divided by b then has the same -(beta^2/b_bulk) lap P
-        # on every node, which keeps the discrete operator symmetric and the
-        # gradient energy exact (DEVELOPERS.md, "Nonlocal pole").
+        # scaled with b by the fill fraction, so that the ADE divided by b has the same
+        # -(beta^2/b_bulk) lap P everywhere; the model places the pole only on wholly
+        # filled nodes (fill = 1), the scaling keeps scaled() consistent for other uses
         return self.beta_nl**2 * self.fill
 
     def scaled(self, f: float) -> NonlocalLorentzPole:

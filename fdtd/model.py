@@ -361,8 +361,8 @@ class Model:
                     t["bath"][k, s] = a1 / b
                 cl = pr.pole.laplacian_coefficient()
                 if cl:
-                    # P^{n+1} gains c4 (L P^n); kappa = c_L / b is the same on every
-                    # part-filled node of the pole (kernels/nonlocal_pole.py)
+                    # P^{n+1} gains c4 (L P^n); kappa = c_L / b (the pole sits only on
+                    # wholly filled nodes, so it is one number per medium; kernels/nonlocal_pole.py)
                     t["c4"][k, s] = cl / (1.0 / dt**2 + a1 / (2.0 * dt))
                     t["kappa"][k, s] = cl / b if b > 0 else 0.0
                     t["nlg"][k, s] = pr.gid

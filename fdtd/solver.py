@@ -210,10 +210,16 @@ class Solver:
                 rws = np.nonzero((groups >= 0).any(axis=1))[0]
                 rows = (int(rws[0]), int(rws[-1]) + 1)
                 diag = np.zeros(mix2.shape)
+                wall = mix2 == 0                       # mixture 0: the conducting wall
+                offs = g.offsets(c)
+                # beyond a closed edge: the wall is the wrapped node 0 (integer nodes) or half a
+                # cell away (half nodes); 1D arrays are one row
+                edge = (0.5, 1.0 if offs[0] == 0.0 else 0.5) if g.dims == 1 else \
+                    tuple(1.0 if o == 0.0 else 0.5 for o in offs)
                 for gid in np.unique(groups[groups >= 0]):
                     fill = fractions[mix2, self.model.pole_material(int(gid))]
                     diag += nlk.boundary_diagonal(groups == gid, fill, self._nl_inv_h2,
-                                                  self._nl_periodic)
+                                                  self._nl_periodic, wall, edge)
                 entries.append((s, mix2, rows, np.zeros(mix2.shape), np.zeros(mix2.shape), diag))
             if entries:
                 self._nonlocal[c] = entries

@@ -94,11 +94,12 @@ def test_boundary_diagonal_planar_surfaces():
     member = np.array([[False, False, True, True, True]])
     for f_cut, expect in ((0.5, 1.0), (0.0, 2.0)):
         fill = np.array([[0.0, f_cut, 1.0, 1.0, 1.0]])
-        fill[0, 1] = f_cut
         d = nlk.boundary_diagonal(member, fill, (0.0, 1.0), (True, False))
         assert d[0, 2] == pytest.approx(1.0 + expect, abs=0)
         assert d[0, 3] == 2.0
-        assert d[0, 4] == pytest.approx(1.0 + 2.0, abs=0)   # closed edge beyond: f = 0
+        assert d[0, 4] == pytest.approx(1.0 + 2.0, abs=0)   # closed edge, half-node wall: delta 1/2
+        d1 = nlk.boundary_diagonal(member, fill, (0.0, 1.0), (True, False), edge_delta=(0.5, 1.0))
+        assert d1[0, 4] == pytest.approx(1.0 + 1.0, abs=0)  # integer-node wall: delta 1
 
 
 # ------------------------------------------------------------------------- dispersion
@@ -377,3 +378,52 @@ def test_layered_reference_refuses_nonlocal_layers():
 
     with pytest.raises(f.ParameterError, match="spatially dispersive"):
         PlanarReference(Stack.half_space(_medium()), MovingLineSource("dipole", 0.5, 0.5, 1.0, 1.0, "y"))
+
+
+# ------------------------------------------------------------------------ edges, groups
+
+
+def _assembled_minus_laplacian(solver, comp="Ey"):
+    """-L of the first nonlocal slot of ``comp`` as a dense matrix over its member nodes,
+    assembled column by column with the NumPy twin (1D grids)."""
+    s, mix2, _rows, _Q, _Pold, diag = solver._nonlocal[comp][0]
+    member = solver.tables["nlg"][mix2, s] >= 0
+    idx = np.nonzero(member.ravel())[0]
+    cols = []
+    for j in idx:
+        e = np.zeros(member.size)
+        e[j] = 1.0
+        cols.append(-nlk.laplacian_numpy(e.reshape(member.shape), member, diag, solver._nl_inv_h2,
+                                         solver._nl_periodic).ravel()[idx])
+    return np.array(cols).T
+
+
+def test_medium_filling_a_conducting_cavity_has_the_exact_dirichlet_spectrum():
+    """1D, conducting walls at x = 0 and x = n dx, the nonlocal medium everywhere: Pekar's
+    P = 0 sits on the walls, so -L is the Dirichlet Laplacian on nodes 1..n-1, whose
+    eigenvalues are (2/dx)^2 sin^2(m pi / (2n)) exactly (discrete sine modes); the operator
+    is symmetric."""
+    n, dx = 40, 0.1
+    g = f.Grid((n,), (dx,), "1d")
+    s = f.Solver(f.Model(g, background=_medium(), edges=f.PEC()), courant=0.9, ledger=False)
+    A = _assembled_minus_laplacian(s)
+    assert A.shape == (n - 1, n - 1)
+    np.testing.assert_allclose(A, A.T, rtol=0, atol=1e-9)
+    lam = np.sort(np.linalg.eigvalsh(A))
+    m = np.arange(1, n)
+    np.testing.assert_allclose(lam, (2 / dx * np.sin(m * np.pi / (2 * n))) ** 2, rtol=1e-12)
+
+
+def test_two_regions_of_the_same_medium_have_no_inner_surface():
+    """Two touching slabs of equal (separately built) nonlocal materials are one medium: no
+    Pekar wall at their common face (a spatially dispersive medium split in two regions
+    must not reflect its polarization waves there)."""
+    n, dx = 60, 0.1
+    g = f.Grid((n,), (dx,), "1d")
+    regions = [(f.Slab("x", 0.5, 3.0), _medium()), (f.Slab("x", 3.0, 5.5), _medium())]
+    s = f.Solver(f.Model(g, regions, edges=f.Periodic()), courant=0.9, ledger=False)
+    assert len(s.model.materials) == 2          # background + one medium
+    A = _assembled_minus_laplacian(s)
+    inner = np.diag(A)[2:-2]
+    np.testing.assert_allclose(inner, 2 / dx**2, rtol=1e-12)
+    assert A.shape[0] == int(round(5.0 / dx)) - 1   # all nodes strictly inside [0.5, 5.5]

@@ -165,31 +165,36 @@ def laplacian_numpy(P2, member, diag, inv_h2, periodic):
     return np.where(member, out, 0.0)
 
 
-def boundary_diagonal(member, fill_neighbour_source, inv_h2, periodic):
+def boundary_diagonal(member, fill_neighbour_source, inv_h2, periodic, wall=None, edge_delta=(0.5, 0.5)):
     """Diagonal of minus the Laplacian on the nodes of one pole group, (rows, cols).
 
     ``member`` bool (rows, cols): the nodes wholly inside the medium;
     ``fill_neighbour_source`` float (rows, cols): each node's fill fraction of the
-    medium (0 beyond a closed edge).  A member whose neighbour along an axis is
-    not a member sees the surface at ``delta h`` with ``delta = 1/2 + f_nb``
-    (exact for a planar surface normal to that axis, from the dual-cell
-    fractions), and Pekar's ``P = 0`` there enters through the ghost value
-    ``-P (1 - delta)/delta``: the diagonal gets ``1/delta`` instead of 1
-    (symmetric, F. Gibou et al., J. Comput. Phys. 176, 205 (2002), from memory).
-    With ``1/2 <= delta < 3/2`` the Gershgorin bound of the operator stays that
-    of the bulk, ``sum_i 4/h_i^2``."""
+    medium.  A member whose neighbour along an axis is not a member sees the surface at
+    ``delta h`` with ``delta = 1/2 + f_nb`` (exact for a planar surface normal to that axis,
+    from the dual-cell fractions), and Pekar's ``P = 0`` there enters through the ghost value
+    ``-P (1 - delta)/delta``: the diagonal gets ``1/delta`` instead of 1 (symmetric,
+    F. Gibou et al., J. Comput. Phys. 176, 205 (2002), from memory).  A conducting-wall node
+    (``wall``, bool (rows, cols)) is the surface itself: ``delta = 1``.  Beyond a closed edge
+    the surface lies ``edge_delta[axis]`` cells away (1 for a component on integer nodes along
+    that axis, whose wall is the wrapped node 0; 1/2 for one on half nodes).  With
+    ``delta >= 1/2`` every Gershgorin disc of ``-L`` ends below ``sum_i 4/h_i^2``, the bulk
+    bound."""
     diag = np.zeros(member.shape)
+    if wall is None:
+        wall = np.zeros(member.shape, dtype=bool)
     for axis, (ih2, per) in enumerate(zip(inv_h2, periodic, strict=True)):
         if ih2 == 0.0:
             continue
         for step in (-1, 1):
             nb_member = np.roll(member, -step, axis=axis)
             nb_fill = np.roll(fill_neighbour_source, -step, axis=axis)
+            delta = 0.5 + np.clip(nb_fill, 0.0, 1.0)
+            delta = np.where(np.roll(wall, -step, axis=axis), 1.0, delta)
             if not per:
                 edge = [slice(None)] * 2
                 edge[axis] = -1 if step == 1 else 0
                 nb_member[tuple(edge)] = False
-                nb_fill[tuple(edge)] = 0.0
-            delta = 0.5 + np.clip(nb_fill, 0.0, 1.0)
+                delta[tuple(edge)] = edge_delta[axis]
             diag += ih2 * np.where(nb_member, 1.0, 1.0 / delta)
     return np.where(member, diag, 0.0)
