@@ -21,11 +21,11 @@ import numpy as np
 sys.path.insert(0, os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
 
 import fdtd as f  # noqa: E402
-from fdtd.moving import MovingDipole  # noqa: E402
-from fdtd.planar import Bulk1D, MovingLineSource, PlanarReference, Stack  # noqa: E402
-from fdtd.setups import auto_sampling, commensurate_dt, comoving_cell  # noqa: E402
-from fdtd.spectral import DopplerFluxRecorder, DopplerWorkRecorder  # noqa: E402
-from fdtd.worldlines import UniformMotion  # noqa: E402
+from fdtd.sources.moving import MovingDipole  # noqa: E402
+from fdtd.reference.planar import Bulk1D, MovingLineSource, PlanarReference, Stack  # noqa: E402
+from fdtd.experiment.cell import auto_sampling, commensurate_dt, comoving_cell  # noqa: E402
+from fdtd.recording.doppler import DopplerFluxRecorder, DopplerWorkRecorder  # noqa: E402
+from fdtd.sources.worldlines import UniformMotion  # noqa: E402
 
 LZ = f.Material(1.0, (f.LorentzPole(2.0, 1.0, 0.1),), "lz")
 

@@ -245,8 +245,8 @@ def source_cost(n: int = 2048, steps: int = 20, repeats: int = 5) -> dict:
     One solver, the source switched on and off between interleaved timings, so
     that memory placement and machine load are the same for both.
     """
-    from fdtd.moving import MovingDipole
-    from fdtd.worldlines import UniformMotion
+    from fdtd.sources.moving import MovingDipole
+    from fdtd.sources.worldlines import UniformMotion
 
     threads = min(2, numba.config.NUMBA_NUM_THREADS)
     s = build(n, threads, ledger=False)

@@ -7,10 +7,10 @@ The names below are loaded on first use, so that light commands (``gapwake thres
 ``gapwake --version``) do not pay for numba, h5py and the solver.
 """
 
-from ._version import __version__
-from .errors import (GapwakeError, GeometryError, InstabilityError, ParameterError, ShapeError,
+from fdtd._version import __version__
+from fdtd.errors import (GapwakeError, GeometryError, InstabilityError, ParameterError, ShapeError,
                      StabilityError)
-from .materials import VACUUM, DrudePole, LorentzPole, Material, NonlocalLorentzPole, lorentz_material
+from fdtd.media.materials import VACUUM, DrudePole, LorentzPole, Material, NonlocalLorentzPole, lorentz_material
 
 __all__ = [
     "__version__", "CPML", "PEC", "Periodic", "GapwakeError", "GeometryError", "InstabilityError",
@@ -22,12 +22,14 @@ __all__ = [
 
 #: name -> module that defines it (imported on first access)
 _LAZY = {
-    "CPML": "boundaries", "PEC": "boundaries", "Periodic": "boundaries",
-    "Everywhere": "geometry", "HalfSpace": "geometry", "Polygon": "geometry", "Rectangle": "geometry",
-    "Slab": "geometry", "Grid": "grid", "Model": "model", "Solver": "solver",
-    "ContinuousWave": "sources", "GaussianPulse": "sources", "PrescribedCurrent": "sources",
-    "line_current": "sources", "UnitSystem": "units",
-    # the scenario API pulls in pint, h5py and the runner
+    "CPML": "space.edges", "PEC": "space.edges", "Periodic": "space.edges",
+    "Everywhere": "space.geometry", "HalfSpace": "space.geometry", "Polygon": "space.geometry",
+    "Rectangle": "space.geometry", "Slab": "space.geometry", "Grid": "space.grid",
+    "Model": "space.model", "Solver": "solver.stepper",
+    "ContinuousWave": "sources.prescribed", "GaussianPulse": "sources.prescribed",
+    "PrescribedCurrent": "sources.prescribed", "line_current": "sources.prescribed",
+    "UnitSystem": "units",
+    # the scenario API pulls in pint, h5py and the experiment procedure
     "load": "api", "check": "api", "run": "api", "open_results": "api", "as_arrays": "api",
 }
 
@@ -44,7 +46,7 @@ def __getattr__(name):
     if not name.startswith("_") and importlib.util.find_spec(f"{__name__}.{name}") is not None:
         import importlib
 
-        return importlib.import_module(f".{name}", __name__)     # fdtd.stability, fdtd.planar, ...
+        return importlib.import_module(f".{name}", __name__)     # fdtd.media, fdtd.reference, ...
     raise AttributeError(f"module 'fdtd' has no attribute {name!r}")
 
 

@@ -14,7 +14,7 @@ from typing import Any
 
 import numpy as np
 
-from .errors import ParameterError
+from fdtd.errors import ParameterError
 
 
 def _fmt(value: Any) -> str:

@@ -18,9 +18,9 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .results import Results
-from .runner import PointRunner, plan, run_scenario
-from .scenario import Scenario
+from fdtd.io.results import Results
+from fdtd.experiment.runner import PointRunner, plan, run_scenario
+from fdtd.scenario.schema import Scenario
 
 
 def load(path) -> Scenario:

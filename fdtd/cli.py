@@ -12,7 +12,7 @@ import json
 import sys
 import warnings
 
-from ._version import __version__
+from fdtd._version import __version__
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -140,9 +140,9 @@ def main(argv=None) -> int:
     if args.command == "threshold":
         # analytic only: keep the solver, h5py and the runner out of this path
         return _threshold(args)
-    from . import api
-    from .errors import GapwakeError, ParameterError
-    from .quantities import ScenarioError
+    from fdtd import api
+    from fdtd.errors import GapwakeError, ParameterError
+    from fdtd.scenario.quantities import ScenarioError
 
     try:
         if args.command == "check":
@@ -167,14 +167,14 @@ def main(argv=None) -> int:
                 _print_summary(out)
             return 130 if out.stop_reason.startswith("interrupted") else 0
         if args.command == "plot":
-            from .plotting import plot_all
+            from fdtd.viz.figures import plot_all
 
             paths = plot_all(args.results, args.outdir, tuple(x.strip() for x in args.format.split(",")))
             for pth in paths:
                 print(pth)
             return 0
         if args.command == "animate":
-            from .animate import animate
+            from fdtd.viz.animation import animate
 
             print(animate(args.results, args.output, args.component, fps=args.fps, energy=args.energy))
             return 0
@@ -201,13 +201,13 @@ def main(argv=None) -> int:
 
 
 def _threshold(args) -> int:
-    from . import thresholds as th
-    from .errors import ParameterError
+    from fdtd.reference import thresholds as th
+    from fdtd.errors import ParameterError
 
     try:
         scenario = None
         if args.file is not None:
-            from .scenario import Scenario
+            from fdtd.scenario.schema import Scenario
 
             scenario = _overrides(Scenario.load(args.file), args.set)
         elif args.set:
@@ -244,9 +244,9 @@ def _demo(args) -> int:
     from importlib import resources
     from pathlib import Path
 
-    from . import api
-    from .animate import animate
-    from .plotting import plot_all
+    from fdtd import api
+    from fdtd.viz.animation import animate
+    from fdtd.viz.figures import plot_all
 
     out = Path(args.outdir)
     out.mkdir(parents=True, exist_ok=True)

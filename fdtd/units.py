@@ -37,7 +37,7 @@ from dataclasses import dataclass
 
 import scipy.constants as sc
 
-from ._checks import positive
+from fdtd._checks import positive
 
 C0 = sc.c
 EPS0 = sc.epsilon_0

@@ -3,7 +3,7 @@
 import numpy as np
 
 import fdtd as f
-from fdtd.analysis import bulk_dispersion, doppler_lines, kx_omega_map, surface_polariton
+from fdtd.recording.kx_omega import bulk_dispersion, doppler_lines, kx_omega_map, surface_polariton
 
 
 def test_kx_omega_map_locates_a_travelling_wave():

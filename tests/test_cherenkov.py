@@ -12,12 +12,12 @@ import numpy as np
 from helpers import loglog_slope
 
 import fdtd as f
-from fdtd import theory
-from fdtd.electrostatics import electrostatic_start
-from fdtd.moving import MovingCharge
-from fdtd.setups import charge_in_comoving_cell, comoving_cell
-from fdtd.shapes import Shape
-from fdtd.worldlines import UniformMotion
+from fdtd.reference import closed_forms as theory
+from fdtd.sources.electrostatics import electrostatic_start
+from fdtd.sources.moving import MovingCharge
+from fdtd.experiment.cell import charge_in_comoving_cell, comoving_cell
+from fdtd.sources.shapes import Shape
+from fdtd.sources.worldlines import UniformMotion
 
 GLASS = f.Material(2.25, (), "n=1.5")
 L = 4.0

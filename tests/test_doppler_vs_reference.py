@@ -12,10 +12,10 @@ import numpy as np
 import pytest
 
 import fdtd as f
-from fdtd.planar import Bulk1D, MovingLineSource, PlanarReference, Stack
-from fdtd.setups import dipole_in_comoving_cell, light_line_safe_length
-from fdtd.shapes import Shape
-from fdtd.spectral import DopplerWorkRecorder
+from fdtd.reference.planar import Bulk1D, MovingLineSource, PlanarReference, Stack
+from fdtd.experiment.cell import dipole_in_comoving_cell, light_line_safe_length
+from fdtd.sources.shapes import Shape
+from fdtd.recording.doppler import DopplerWorkRecorder
 
 LZ = f.Material(1.0, (f.LorentzPole(2.0, 1.0, 0.1),), "lossy Lorentz")
 LZ2 = f.Material(2.0, (f.LorentzPole(1.5, 1.3, 0.15),), "second lossy Lorentz")
@@ -119,7 +119,7 @@ def test_bulk_1d_dipole_sheet_matches_reference():
     """1D: a transverse dipole sheet moving through a uniform lossy Lorentz medium, the
     simplest setting with both Doppler branches (loss 0.3 so that slow polaritons near the
     Doppler lines settle within the run)."""
-    from fdtd.setups import dipole_sheet_in_bulk
+    from fdtd.experiment.cell import dipole_sheet_in_bulk
 
     med = f.Material(1.0, (f.LorentzPole(2.0, 1.0, 0.3),), "lz")
     v, w0, L, d = 0.5, 0.6, 12.0, 0.1
@@ -132,21 +132,21 @@ def test_bulk_1d_dipole_sheet_matches_reference():
 def test_recorder_refuses_a_window_shorter_than_a_period():
     g = f.Grid((40, 40), (0.1, 0.1), "te")
     s = f.Solver(f.Model(g, edges=[f.Periodic(), f.CPML(8)]))
-    from fdtd.moving import MovingDipole
-    from fdtd.worldlines import UniformMotion
+    from fdtd.sources.moving import MovingDipole
+    from fdtd.sources.worldlines import UniformMotion
 
     src = MovingDipole(1.0, 1.0, UniformMotion((0.0, 2.0), (0.5, 0.0)), axis="y")
     s.add_source(src)
     with pytest.raises(f.ParameterError, match="shorter than one period"):
         DopplerWorkRecorder(s, src, 0.5, src.lab_frequency(), duration=3.0)   # transit is 8
-    from fdtd.spectral import DopplerFluxRecorder
+    from fdtd.recording.doppler import DopplerFluxRecorder
 
     with pytest.raises(f.GeometryError, match="outside the grid rows"):
         DopplerFluxRecorder(s, 0.5, src.lab_frequency(), rows=[45])
 
 
 def test_unmet_steady_tolerance_warns_and_marks_results_partial():
-    from fdtd.spectral import SteadyStateWarning
+    from fdtd.recording.doppler import SteadyStateWarning
 
     with pytest.warns(SteadyStateWarning, match="did not settle"):
         out = dipole_in_comoving_cell(0.6, 0.5, W0, "y", 9.2, 0.2, regions=_geometry("half")[0],
@@ -158,9 +158,9 @@ def test_open_domain_passage_analysis_matches_continuum_reference():
     """A long open domain (absorbing layers on every side): the work done on the columns
     the source passes, Hann-averaged over a span of several internal periods, against the
     continuum reference (no periodicity)."""
-    from fdtd.moving import MovingDipole
-    from fdtd.spectral import PassageWorkRecorder
-    from fdtd.worldlines import UniformMotion
+    from fdtd.sources.moving import MovingDipole
+    from fdtd.recording.doppler import PassageWorkRecorder
+    from fdtd.sources.worldlines import UniformMotion
 
     v, h, d, npml = 0.6, 0.5, 0.1, 15
     g = f.Grid((int(80 / d) + 2 * npml, int(6.0 / d) + 2 * npml), (d, d), "te",

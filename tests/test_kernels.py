@@ -4,7 +4,7 @@ import numpy as np
 import pytest
 
 import fdtd as f
-from fdtd.kernels.reference import STEPPERS, twin_inputs, twin_state
+from fdtd.solver.kernels.reference import STEPPERS, twin_inputs, twin_state
 
 LZ = f.Material(1.3, (f.LorentzPole(1.5, 2.0, 0.2), f.LorentzPole(0.4, 5.0, 0.0)), "two-pole")
 DR = f.Material(1.0, (f.DrudePole(3.0, 0.5),), "drude")

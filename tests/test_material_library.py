@@ -15,7 +15,7 @@ import pytest
 import scipy.constants as sc
 
 import fdtd as f
-from fdtd import material_library as ml
+from fdtd.media import library as ml
 
 DATA = Path(__file__).parent / "data"
 ELL = 1e-6            # reference length (m) used throughout

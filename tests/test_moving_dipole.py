@@ -16,11 +16,11 @@ import numpy as np
 import pytest
 
 import fdtd as f
-from fdtd import theory
-from fdtd.moving import MovingDipole
-from fdtd.setups import commensurate_dt, comoving_cell
-from fdtd.spectral import DopplerWorkRecorder
-from fdtd.worldlines import UniformMotion
+from fdtd.reference import closed_forms as theory
+from fdtd.sources.moving import MovingDipole
+from fdtd.experiment.cell import commensurate_dt, comoving_cell
+from fdtd.recording.doppler import DopplerWorkRecorder
+from fdtd.sources.worldlines import UniformMotion
 
 CASES = [("te", "y"), ("te", "x"), ("tm", "z")]
 

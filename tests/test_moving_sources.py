@@ -7,11 +7,11 @@ import numpy as np
 import pytest
 
 import fdtd as f
-from fdtd.electrostatics import electrostatic_start, gauss_residual
-from fdtd.moving import MovingCharge, MovingDipole, NumericalCherenkovWarning
-from fdtd.setups import comoving_cell
-from fdtd.shapes import Shape, half_weights, node_weights
-from fdtd.worldlines import CallableWorldLine, PiecewiseLinear, UniformMotion
+from fdtd.sources.electrostatics import electrostatic_start, gauss_residual
+from fdtd.sources.moving import MovingCharge, MovingDipole, NumericalCherenkovWarning
+from fdtd.experiment.cell import comoving_cell
+from fdtd.sources.shapes import Shape, half_weights, node_weights
+from fdtd.sources.worldlines import CallableWorldLine, PiecewiseLinear, UniformMotion
 
 LZ = f.Material(1.5, (f.LorentzPole(2.0, 3.0, 0.1),), "lz")
 

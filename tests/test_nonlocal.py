@@ -16,8 +16,8 @@ import pytest
 from helpers import frequencies_from_roots, loglog_slope, prony_roots, record_point
 
 import fdtd as f
-from fdtd.kernels import nonlocal_pole as nlk
-from fdtd.stability import max_stable_dt
+from fdtd.solver.kernels import nonlocal_pole as nlk
+from fdtd.space.stability import max_stable_dt
 
 EPS_INF, DELTA_EPS, OMEGA, GAMMA, BETA = 1.0, 2.0, 1.0, 0.05, 0.2
 
@@ -320,7 +320,7 @@ def test_scenario_files_build_nonlocal_poles(tmp_path, capsys):
     from test_scenario_files import TINY, edit, write
 
     from fdtd.cli import main
-    from fdtd.scenario import Scenario
+    from fdtd.scenario.schema import Scenario
 
     text = edit(TINY, 'gamma = "0.1 eV" }', 'gamma = "0.1 eV", beta_nl = "0.01 c" }')
     res = Scenario.load(write(tmp_path, text)).resolve()
@@ -353,9 +353,9 @@ def test_moving_dipole_sheet_in_nonlocal_bulk_matches_reference():
     beta_nl."""
     from test_doppler_vs_reference import _compare
 
-    from fdtd.planar import Bulk1D
-    from fdtd.setups import dipole_sheet_in_bulk
-    from fdtd.shapes import Shape
+    from fdtd.reference.planar import Bulk1D
+    from fdtd.experiment.cell import dipole_sheet_in_bulk
+    from fdtd.sources.shapes import Shape
 
     med = f.Material(1.0, (f.NonlocalLorentzPole(2.0, 1.0, 0.3, 0.25),), "nl")
     v, w0, L, d = 0.5, 0.6, 12.0, 0.1
@@ -374,7 +374,7 @@ def test_moving_dipole_sheet_in_nonlocal_bulk_matches_reference():
 
 
 def test_layered_reference_refuses_nonlocal_layers():
-    from fdtd.planar import MovingLineSource, PlanarReference, Stack
+    from fdtd.reference.planar import MovingLineSource, PlanarReference, Stack
 
     with pytest.raises(f.ParameterError, match="spatially dispersive"):
         PlanarReference(Stack.half_space(_medium()), MovingLineSource("dipole", 0.5, 0.5, 1.0, 1.0, "y"))

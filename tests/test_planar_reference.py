@@ -14,8 +14,8 @@ import numpy as np
 import pytest
 
 import fdtd as f
-from fdtd import theory
-from fdtd.planar import Bulk1D, MovingLineSource, PlanarReference, Stack
+from fdtd.reference import closed_forms as theory
+from fdtd.reference.planar import Bulk1D, MovingLineSource, PlanarReference, Stack
 
 W = 2 * np.pi
 LZ = f.Material(1.0, (f.LorentzPole(2.0, 1.0, 0.1),), "lossy Lorentz")

@@ -39,9 +39,9 @@ import scipy.integrate as si
 import scipy.special as sp
 
 import fdtd as f
-from fdtd import rates
-from fdtd.planar import Bulk1D, MovingLineSource, PlanarReference, Stack
-from fdtd.spectral import DopplerSpectrum
+from fdtd.reference import rates
+from fdtd.reference.planar import Bulk1D, MovingLineSource, PlanarReference, Stack
+from fdtd.recording.doppler import DopplerSpectrum
 
 W = 2 * np.pi          # omega = 2 pi: vacuum wavelength 1 normalized length unit
 

@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 
 import fdtd as f
-from fdtd.recorders import DFTRecorder, FieldLineRecorder, SnapshotRecorder
+from fdtd.recording.fields import DFTRecorder, FieldLineRecorder, SnapshotRecorder
 
 NX, DX = 64, 0.1
 N_PERIOD = 80          # steps per period of the standing wave below

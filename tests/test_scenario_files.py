@@ -21,7 +21,7 @@ import pytest
 
 import fdtd
 from fdtd.cli import main
-from fdtd.runner import PointRunner
+from fdtd.experiment.runner import PointRunner
 
 ROOT = Path(__file__).resolve().parents[1]
 
@@ -407,7 +407,7 @@ def test_grid_cutoff_warnings_before_and_after_a_run(tmp_path, capsys):
 
 
 def test_failed_write_leaves_no_complete_file(tmp_path, monkeypatch):
-    import fdtd.runner as runner
+    import fdtd.experiment.runner as runner
 
     def broken(*a, **k):
         raise OSError("disk full (simulated)")

@@ -7,7 +7,7 @@ import numpy as np
 import pytest
 
 import fdtd as f
-from fdtd.stability import max_stable_dt
+from fdtd.space.stability import max_stable_dt
 
 STRONG = f.lorentz_material(1.0, 4.0, 3.0, 0.0, "strong")
 GRIDS = {"1d": ((64,), (0.1,)), "te": ((32, 32), (0.1, 0.1)), "tm": ((32, 32), (0.1, 0.1))}

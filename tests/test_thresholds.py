@@ -1,4 +1,4 @@
-"""Analytic speed thresholds (fdtd.thresholds) and the `gapwake threshold` command.
+"""Analytic speed thresholds (fdtd.reference.thresholds) and the `gapwake threshold` command.
 
 Outside results used (beside each check):
 * Cherenkov condition beta^2 eps(omega) > 1, threshold 1/n in a constant dielectric:
@@ -21,7 +21,8 @@ import numpy as np
 import pytest
 
 import fdtd as f
-from fdtd import thresholds as T
+from fdtd.reference import thresholds as T
+from fdtd.space.stability import max_stable_dt
 from fdtd.cli import main
 
 W, DE, EINF, W0 = 1.0, 2.0, 1.0, 0.6          # the Lorentz medium of the simulator checks
@@ -132,7 +133,7 @@ def test_nonlocal_threshold_converges_to_beta_nl(beta_nl):
     # w^2 = beta^2 k^2 + c + O(1/k^2), c = W^2 (1 - D beta^2/(1 - beta^2 eps_inf)) (derived in the
     # draft docs); its phase velocity tends to beta_nl (from above when c > 0, as here) instead of 0.
     # Hence v_min(k_max) -> beta_nl: Cherenkov (v - beta) k^2 -> c/(2 beta); anomalous, expanding
-    # the closed form of fdtd.thresholds.anomalous_speed in 1/k:
+    # the closed form of fdtd.reference.thresholds.anomalous_speed in 1/k:
     # (v - beta) k = w0 sqrt(1 - beta^2) + (c/(2 beta) - beta w0^2)/k + O(1/k^2)
     # (the first term is the oscillator's time-dilated frequency at v ~ beta).
     nl = T.with_nonlocal(LZ, beta_nl)
@@ -185,7 +186,7 @@ def test_discrete_branches_are_the_yee_ade_dispersion(beta_nl):
     if beta_nl:
         med = T.with_nonlocal(med, beta_nl)
     dx = 0.3
-    dt = 0.9 * f.stability.max_stable_dt((dx,), [med])
+    dt = 0.9 * max_stable_dt((dx,), [med])
     sch = T.Scheme(dx, dt)
     k = np.array([0.05, 0.7, 2.0, 5.0, math.pi / dx])
     Wd = T.mode_frequencies(med, k, sch)
@@ -226,8 +227,8 @@ def _anomalous_power_scan(dx, n_cells, speeds, gamma, k_only=None):
     """1D periodic co-moving cell (as tests/test_doppler_vs_reference.py::
     test_bulk_1d_dipole_sheet_matches_reference), linear shape; anomalous-branch power per speed
     (only the points with |k_x| = k_only if given).  Returns (power (S,), dt (S,), model)."""
-    from fdtd.setups import dipole_sheet_in_bulk
-    from fdtd.shapes import Shape
+    from fdtd.experiment.cell import dipole_sheet_in_bulk
+    from fdtd.sources.shapes import Shape
 
     med = f.Material(EINF, (f.LorentzPole(DE, W, gamma),), "lossy Lorentz")
     L = n_cells * dx
@@ -348,7 +349,7 @@ def test_cli_prints_the_same_numbers_as_the_api(tmp_path, capsys):
     assert ell == pytest.approx(299792458.0 / (1.602176634e-19 / 1.054571817e-34), rel=1e-9)
     grid = d["rows"][1]["cherenkov"]
     dx = 20e-9 / ell
-    dt = 0.95 * f.stability.max_stable_dt((dx,), [f.Material(2.25), f.VACUUM])
+    dt = 0.95 * max_stable_dt((dx,), [f.Material(2.25), f.VACUUM])
     assert grid["speed"]["value"] == pytest.approx(
         T.cherenkov_threshold(f.Material(2.25), T.Cutoff.grid(dx, dt)).speed, rel=1e-12)
     assert sorted(p.name for p in tmp_path.iterdir()) == ["thr.pdf", "thr.png"]
@@ -387,7 +388,7 @@ def test_cli_scenario_with_a_nonlocal_material(tmp_path, capsys):
 def test_cli_threshold_path_does_not_load_the_runner_or_h5py():
     code = ("import sys; from fdtd.cli import main; "
             "main(['threshold', '--eps', '4', '--frequency', '1 eV']); "
-            "print(sorted(m for m in ('h5py', 'fdtd.runner', 'fdtd.api', 'fdtd.recorders') "
+            "print(sorted(m for m in ('h5py', 'fdtd.experiment.runner', 'fdtd.api', 'fdtd.recording.fields') "
             "if m in sys.modules))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert out.stdout.strip().splitlines()[-1] == "[]"

@@ -20,12 +20,12 @@ sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
 
 import fdtd as f  # noqa: E402
 from _report import COLORS, Report, figure, save  # noqa: E402
-from fdtd.moving import MovingDipole  # noqa: E402
-from fdtd.planar import Bulk1D, MovingLineSource, PlanarReference, Stack  # noqa: E402
-from fdtd.setups import dipole_in_comoving_cell, dipole_sheet_in_bulk, light_line_safe_length  # noqa: E402
-from fdtd.shapes import Shape  # noqa: E402
-from fdtd.spectral import PassageWorkRecorder  # noqa: E402
-from fdtd.worldlines import UniformMotion  # noqa: E402
+from fdtd.sources.moving import MovingDipole  # noqa: E402
+from fdtd.reference.planar import Bulk1D, MovingLineSource, PlanarReference, Stack  # noqa: E402
+from fdtd.experiment.cell import dipole_in_comoving_cell, dipole_sheet_in_bulk, light_line_safe_length  # noqa: E402
+from fdtd.sources.shapes import Shape  # noqa: E402
+from fdtd.recording.doppler import PassageWorkRecorder  # noqa: E402
+from fdtd.sources.worldlines import UniformMotion  # noqa: E402
 
 LZ = f.Material(1.0, (f.LorentzPole(2.0, 1.0, 0.1),), "lossy Lorentz (eps_inf 1, de 2, Omega 1, gamma 0.1)")
 LZ2 = f.Material(2.0, (f.LorentzPole(1.5, 1.3, 0.15),), "second lossy Lorentz")

@@ -24,11 +24,11 @@ sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
 import fdtd as f  # noqa: E402
 from _report import COLORS, Report, figure, save  # noqa: E402
 from fdtd import theory  # noqa: E402
-from fdtd.electrostatics import electrostatic_start  # noqa: E402
-from fdtd.moving import MovingCharge, MovingDipole  # noqa: E402
-from fdtd.setups import charge_in_comoving_cell, comoving_cell  # noqa: E402
-from fdtd.shapes import Shape  # noqa: E402
-from fdtd.worldlines import CallableWorldLine, UniformMotion  # noqa: E402
+from fdtd.sources.electrostatics import electrostatic_start  # noqa: E402
+from fdtd.sources.moving import MovingCharge, MovingDipole  # noqa: E402
+from fdtd.experiment.cell import charge_in_comoving_cell, comoving_cell  # noqa: E402
+from fdtd.sources.shapes import Shape  # noqa: E402
+from fdtd.sources.worldlines import CallableWorldLine, UniformMotion  # noqa: E402
 
 GLASS = f.Material(2.25, (), "n=1.5")
 L = 4.0

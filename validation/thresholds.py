@@ -1,4 +1,4 @@
-"""Validation: analytic speed thresholds (fdtd.thresholds) against speed scans of the simulator.
+"""Validation: analytic speed thresholds (fdtd.reference.thresholds) against speed scans of the simulator.
 
 1D bulk, periodic co-moving cell (as tests/test_doppler_vs_reference.py::
 test_bulk_1d_dipole_sheet_matches_reference): a transverse dipole sheet (rest frequency
@@ -30,8 +30,8 @@ sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
 import fdtd as f  # noqa: E402
 from _report import COLORS, Report, figure, save  # noqa: E402
 from fdtd import thresholds as T  # noqa: E402
-from fdtd.setups import dipole_sheet_in_bulk  # noqa: E402
-from fdtd.shapes import Shape  # noqa: E402
+from fdtd.experiment.cell import dipole_sheet_in_bulk  # noqa: E402
+from fdtd.sources.shapes import Shape  # noqa: E402
 
 W, DE, EINF, W0 = 1.0, 2.0, 1.0, 0.6
 LOSSLESS = f.Material(EINF, (f.LorentzPole(DE, W, 0.0),), "Lorentz (eps_inf 1, de 2, Omega 1)")
@@ -62,7 +62,7 @@ def main() -> None:
     rep.para("Medium: " + LOSSLESS.name + " with loss gamma; oscillator rest frequency w0 = 0.6; "
              "1D periodic co-moving cell of length L = 30, linear source shape (order 1, scale 1, "
              "form factor sinc^2(k dx/2) = 0.41 at pi/dx), settling 6/gamma, two transits recorded "
-             "with a Hann window.  Prediction: `fdtd.thresholds.anomalous_threshold` with "
+             "with a Hann window.  Prediction: `fdtd.reference.thresholds.anomalous_threshold` with "
              "`Cutoff.grid(dx, dt, period=L)` (lossless branch of the Yee + ADE scheme at the "
              "cell's harmonics k_m = 2 pi m/L, the run's own dt).  Without a cutoff the "
              "threshold is 0 (the lower polariton flattens at Omega; see the draft docs).")

@@ -1,0 +1,544 @@
+r"""Scenario files (TOML): schema, validation, resolution into a runnable plan.
+
+A scenario describes a physical situation in physical units.  It is read
+with the standard library (``tomllib``), checked against the schema in
+:data:`SCHEMA` before anything runs (unknown keys are errors, with a
+did-you-mean suggestion; every error names the file, the key path, the value
+and what was expected), and resolved into normalized units
+(:class:`Resolved`), from which :mod:`fdtd.runner` builds the model, solver,
+sources and recorders.  The full key reference is in ``docs/scenarios.md``.
+
+Sections: ``[meta]``, ``[units]``, ``[materials.NAME]``, ``[geometry]``,
+``[[regions]]``, ``[grid]``, ``[source]``, ``[run]``, ``[record]``, ``[scan]``.
+"""
+
+from __future__ import annotations
+
+import copy
+import difflib
+import math
+import tomllib
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import scipy.constants as sc
+
+from fdtd.scenario import quantities as Q
+from fdtd.media.materials import VACUUM, DrudePole, LorentzPole, Material, NonlocalLorentzPole
+from fdtd.scenario.quantities import ScenarioError
+
+
+# ----------------------------------------------------------------------------- schema
+@dataclass(frozen=True)
+class Key:
+    """One key of a section: ``kind`` is a quantity kind, or "str", "bool", "int",
+    "number", "list", "table", "choice"."""
+
+    kind: str
+    required: bool = False
+    default: object = None
+    choices: tuple = ()
+    lo: float | None = None
+    hi: float | None = None
+    lo_open: bool = False
+    hi_open: bool = False
+    doc: str = ""
+
+
+POLE_KEYS = {
+    "kind": Key("choice", True, choices=("lorentz", "drude"), doc="pole model"),
+    "delta_eps": Key("dimensionless", False, lo=0.0, doc="Lorentz oscillator strength"),
+    "omega": Key("angular_frequency", False, lo=0.0, lo_open=True, doc="Lorentz resonance"),
+    "omega_p": Key("angular_frequency", False, lo=0.0, lo_open=True, doc="Drude plasma frequency"),
+    "gamma": Key("rate", False, default=0.0, lo=0.0, doc="damping rate (loss into the bath)"),
+    "beta_nl": Key("speed", False, default=0.0, lo=0.0, hi=1.0, hi_open=True,
+                   doc="Lorentz only: nonlocal speed (spatial dispersion, a physical wavenumber cutoff)"),
+}
+
+MATERIAL_KEYS = {
+    "kind": Key("choice", True, choices=("constant", "poles", "polar", "sellmeier", "table"),
+                doc="how the permittivity is given"),
+    "eps": Key("dimensionless", False, lo=0.0, lo_open=True, doc="constant permittivity"),
+    "eps_inf": Key("dimensionless", False, default=1.0, lo=0.0, lo_open=True, doc="high-frequency permittivity"),
+    "poles": Key("list", False, default=(), doc="list of pole tables"),
+    "omega_to": Key("angular_frequency", False, lo=0.0, lo_open=True, doc="transverse optical phonon"),
+    "omega_lo": Key("angular_frequency", False, lo=0.0, lo_open=True, doc="longitudinal optical phonon"),
+    "gamma": Key("rate", False, default=0.0, lo=0.0, doc="phonon damping rate"),
+    "B": Key("list", False, doc="Sellmeier strengths"),
+    "C": Key("list", False, doc="Sellmeier resonances, um^2"),
+    "file": Key("str", False, doc="CSV table of n, k or eps', eps''"),
+    "n_lorentz": Key("int", False, default=2, lo=0, doc="poles for a table fit"),
+    "n_drude": Key("int", False, default=0, lo=0, doc="Drude poles for a table fit"),
+    "beta_nl": Key("speed", False, default=0.0, lo=0.0, hi=1.0, hi_open=True,
+                   doc="polar: nonlocal speed of the phonon pole (spatial dispersion)"),
+}
+
+SCHEMA = {
+    "meta": {
+        "title": Key("str", False, default=""),
+        "description": Key("str", False, default=""),
+    },
+    "units": {
+        "mode": Key("choice", False, default="si", choices=("si", "natural")),
+        "length": Key("length", False, lo=0.0, lo_open=True, doc="reference length (SI mode)"),
+        "frequency": Key("angular_frequency", False, lo=0.0, lo_open=True,
+                         doc="reference angular frequency (natural mode)"),
+        "field": Key("dimensionless", False, default=1.0, lo=0.0, lo_open=True,
+                     doc="reference field E0 in V/m"),
+    },
+    "geometry": {
+        "kind": Key("choice", False, default="none", choices=("none", "half-space", "slab", "slot")),
+        "material": Key("str", False, doc="half-space or slab material"),
+        "surface": Key("length", False, default=0.0, doc="half-space surface / slab top / slot bottom, y"),
+        "thickness": Key("length", False, lo=0.0, lo_open=True, doc="slab thickness"),
+        "lower": Key("str", False, doc="slot: lower material"),
+        "upper": Key("str", False, doc="slot: upper material"),
+        "gap": Key("length", False, lo=0.0, lo_open=True, doc="slot: gap width"),
+        "lower_thickness": Key("length", False, lo=0.0, lo_open=True),
+        "upper_thickness": Key("length", False, lo=0.0, lo_open=True),
+        "background": Key("str", False, default="vacuum"),
+    },
+    "grid": {
+        "polarization": Key("choice", False, choices=("te", "tm", "1d")),
+        "cell": Key("length", False, lo=0.0, lo_open=True, doc="cell size"),
+        "cells_per_wavelength": Key("number", False, lo=4.0, doc="or: cells per shortest wavelength"),
+        "length": Key("length", True, lo=0.0, lo_open=True, doc="cell length along x (co-moving) or domain length"),
+        "height": Key("length", False, lo=0.0, lo_open=True, doc="interior half height (co-moving) / height"),
+        "absorber": Key("length", False, doc="absorbing-layer thickness (default: a quarter wavelength, >= 10 cells)"),
+        "courant": Key("number", False, default=0.95, lo=0.0, hi=1.0, lo_open=True,
+                       doc="fraction of the stability limit"),
+        "subsamples": Key("int", False, default=4, lo=1),
+        "threads": Key("int", False, lo=1),
+    },
+    "source": {
+        "kind": Key("choice", True, choices=("dipole", "charge")),
+        "speed": Key("speed", True, lo=0.0, hi=1.0, hi_open=True, doc="speed (fraction of c below 1)"),
+        "height": Key("length", False, default=0.0, doc="y of the path"),
+        "x0": Key("length", False, default=0.0, doc="x at t = 0"),
+        "frequency": Key("angular_frequency", False, lo=0.0, lo_open=True, doc="rest-frame frequency"),
+        "axis": Key("choice", False, default="y", choices=("x", "y", "z")),
+        "moment": Key("dipole_per_length", False, default=None, doc="rest-frame dipole moment per length"),
+        "transition_dipole": Key("dipole_per_length", False, default=None, lo=0.0, lo_open=True,
+                                 doc="two-level transition dipole |d| for the equivalent quantum rates "
+                                     "(default: half the moment, p0 = 2|d|)"),
+        "charge": Key("charge_per_length", False, default=None, doc="line charge"),
+        "ramp_periods": Key("number", False, default=3.0, lo=0.0, doc="switch-on, rest-frame periods"),
+        "speed_ramp": Key("time", False, default=None, lo=0.0, doc="charges: time to reach the speed"),
+        "shape_order": Key("int", False, default=3, lo=1, hi=3),
+        "shape_scale": Key("int", False, default=2, lo=1),
+        "max_frequency": Key("angular_frequency", False, lo=0.0, lo_open=True,
+                             doc="charges: highest frequency of interest (for the grid)"),
+        "gap_fraction": Key("number", False, lo=0.0, hi=1.0, lo_open=True, hi_open=True,
+                            doc="slot geometry: height as a fraction of the gap (overrides height)"),
+    },
+    "run": {
+        "kind": Key("choice", False, default="comoving", choices=("comoving", "open")),
+        "transits": Key("int", False, default=8, lo=1, doc="co-moving: recording window in transit times"),
+        "settle_tolerance": Key("number", False, default=2e-3, lo=0.0, lo_open=True),
+        "max_time": Key("time", False, doc="co-moving: give up settling after this time"),
+        "time": Key("time", False, doc="open: simulated time"),
+        "checkpoint_every": Key("int", False, default=0, lo=0, doc="steps between checkpoints (0: none)"),
+    },
+    "record": {
+        "doppler": Key("bool", False, default=True),
+        "flux_heights": Key("list", False, default=(), doc="y of flux lines (lengths)"),
+        "snapshots": Key("int", False, default=0, lo=0, doc="number of field snapshots"),
+        "snapshot_component": Key("str", False, doc="field component of the snapshots"),
+        "reference": Key("bool", False, default=True, doc="planar reference when the geometry is planar"),
+        "line_component": Key("str", False, doc="record this component on a line (k-omega map)"),
+        "line_height": Key("length", False, doc="y of that line"),
+        "line_every": Key("int", False, default=2, lo=1),
+        "passage_start": Key("length", False, doc="open domain: start of the column span analysed"),
+        "passage_stop": Key("length", False, doc="open domain: end of that span"),
+    },
+    "scan": {
+        "key": Key("str", True, doc='key path to vary, e.g. "source.speed"'),
+        "values": Key("list", True, doc="values (same units rules as the key)"),
+    },
+}
+
+SECTIONS = tuple(SCHEMA) + ("materials", "regions")
+
+REGION_KEYS = {
+    "shape": Key("choice", True, choices=("half-space", "slab", "rectangle", "polygon", "grating")),
+    "material": Key("str", True),
+    "below": Key("length", False), "above": Key("length", False),
+    "lo": Key("length", False), "hi": Key("length", False),
+    "x0": Key("length", False), "x1": Key("length", False), "y0": Key("length", False),
+    "y1": Key("length", False),
+    "vertices": Key("list", False, doc="polygon vertices [[x, y], ...] (lengths)"),
+    "period": Key("length", False, lo=0.0, lo_open=True, doc="grating period along x"),
+    "duty": Key("number", False, lo=0.0, hi=1.0, lo_open=True, doc="grating filling fraction"),
+    "depth": Key("length", False, lo=0.0, lo_open=True, doc="grating tooth height"),
+    "top": Key("length", False, doc="grating: y of the tooth tops"),
+}
+
+
+_SI_UNIT = {"length": "m", "time": "s", "angular_frequency": "rad/s", "rate": "1/s", "speed": "c",
+            "charge_per_length": "C/m", "dipole_per_length": "C"}
+
+
+def _allowed_range(spec: Key) -> str:
+    """E.g. "a speed (fraction of c below 1) in 0 <= value < 1 c"."""
+    parts = []
+    if spec.lo is not None:
+        parts.append(f"{spec.lo:g} {'<' if spec.lo_open else '<='} ")
+    parts.append("value")
+    if spec.hi is not None:
+        parts.append(f" {'<' if spec.hi_open else '<='} {spec.hi:g}")
+    unit = _SI_UNIT.get(spec.kind, "")
+    what = f"{spec.doc} " if spec.doc else ""
+    return f"{what}in {''.join(parts)}{(' ' + unit) if unit else ''}"
+
+
+# ----------------------------------------------------------------------------- loading
+class Scenario:
+    """A scenario file (or dict) with its validated, SI-converted values.
+
+    Use :meth:`set` to change a parameter (key path as in the file) before
+    :meth:`resolve`.
+    """
+
+    def __init__(self, data: dict, where: str = "scenario", text: str | None = None):
+        self.where = where
+        self.raw = copy.deepcopy(data)
+        self.text = text
+        self.errors: list[str] = []
+        self.values: dict = {}
+        self._validate()
+
+    @classmethod
+    def load(cls, path) -> Scenario:
+        path = Path(path)
+        try:
+            text = path.read_text()
+        except OSError as exc:
+            raise ScenarioError(f"{path}: cannot read the scenario file ({exc.strerror})") from None
+        try:
+            data = tomllib.loads(text)
+        except tomllib.TOMLDecodeError as exc:
+            raise ScenarioError(f"{path}: not valid TOML: {exc}") from None
+        return cls(data, where=str(path), text=text)
+
+    def set(self, key_path: str, value) -> Scenario:
+        """A copy with ``key_path`` (e.g. "source.speed") set to ``value``."""
+        data = copy.deepcopy(self.raw)
+        parts = key_path.split(".")
+        node = data
+        for p in parts[:-1]:
+            node = node.setdefault(p, {})
+        node[parts[-1]] = value
+        return Scenario(data, self.where, None)
+
+    # -- validation -------------------------------------------------------
+    def _fail(self, key: str, value, expected: str) -> None:
+        self.errors.append(f"{self.where}: {key} = {value!r}: expected {expected}")
+
+    def _unknown(self, key: str, allowed) -> None:
+        leaf = key.split(".")[-1]
+        near = difflib.get_close_matches(leaf, list(allowed), n=1)
+        hint = f" (did you mean {near[0]!r}?)" if near else f" (allowed: {', '.join(sorted(allowed))})"
+        self.errors.append(f"{self.where}: unknown key {key!r}{hint}")
+
+    def _check_table(self, prefix: str, table, keys: dict, natural) -> dict:
+        out = {}
+        if not isinstance(table, dict):
+            self._fail(prefix, table, "a table")
+            return out
+        for k in table:
+            if k not in keys:
+                self._unknown(f"{prefix}.{k}", keys)
+        for k, spec in keys.items():
+            path = f"{prefix}.{k}"
+            if k not in table:
+                if spec.required:
+                    self.errors.append(f"{self.where}: {path} is missing: expected {spec.doc or spec.kind}")
+                out[k] = spec.default
+                continue
+            out[k] = self._convert(path, table[k], spec, natural)
+        return out
+
+    def _convert(self, path, value, spec: Key, natural):
+        kind = spec.kind
+        try:
+            if kind == "str":
+                if not isinstance(value, str):
+                    self._fail(path, value, "a string")
+                    return spec.default
+                return value
+            if kind == "bool":
+                if not isinstance(value, bool):
+                    self._fail(path, value, "true or false")
+                    return spec.default
+                return value
+            if kind == "choice":
+                if value not in spec.choices:
+                    near = difflib.get_close_matches(str(value), spec.choices, n=1)
+                    hint = f" (did you mean {near[0]!r}?)" if near else ""
+                    self._fail(path, value, f"one of {list(spec.choices)}{hint}")
+                    return spec.default
+                return value
+            if kind == "list":
+                if not isinstance(value, list):
+                    self._fail(path, value, "a list")
+                    return spec.default
+                return value
+            if kind == "int":
+                if isinstance(value, bool) or not isinstance(value, int):
+                    self._fail(path, value, "an integer")
+                    return spec.default
+                x = value
+            elif kind == "number":
+                if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value):
+                    self._fail(path, value, "a finite number")
+                    return spec.default
+                x = float(value)
+            else:
+                x = Q.parse(value, kind, path, self.where, natural)
+        except ScenarioError as exc:
+            self.errors.append(str(exc))
+            return spec.default
+        lo, hi = spec.lo, spec.hi
+        low_bad = lo is not None and (x < lo or (spec.lo_open and x == lo))
+        high_bad = hi is not None and (x > hi or (spec.hi_open and x == hi))
+        if low_bad or high_bad:
+            self._fail(path, value, _allowed_range(spec))
+        return x
+
+    def _validate(self) -> None:
+        d = self.raw
+        if not isinstance(d, dict):
+            raise ScenarioError(f"{self.where}: expected a TOML table at the top level")
+        for sec in d:
+            if sec not in SECTIONS:
+                self._unknown(sec, SECTIONS)
+        units = self._check_table("units", d.get("units", {}), SCHEMA["units"], None)
+        natural = None
+        if units.get("mode") == "natural":
+            if units.get("frequency") is None:
+                self.errors.append(f"{self.where}: units.frequency is missing: natural-unit mode needs the "
+                                   "reference angular frequency (e.g. \"2.1 eV\")")
+            else:
+                natural = Q.Natural(units["frequency"])
+        self.natural = natural
+        v = {"units": units}
+        for sec in ("meta", "geometry", "grid", "source", "run", "record"):
+            v[sec] = self._check_table(sec, d.get(sec, {}), SCHEMA[sec], natural)
+        # materials
+        mats = {}
+        for name, tab in (d.get("materials") or {}).items():
+            m = self._check_table(f"materials.{name}", tab, MATERIAL_KEYS, natural)
+            poles = []
+            for i, pt in enumerate(m.get("poles") or ()):
+                poles.append(self._check_table(f"materials.{name}.poles[{i}]", pt, POLE_KEYS, natural))
+            m["poles"] = poles
+            if isinstance(tab, dict) and "B" in tab:
+                m["B"] = self._numbers(f"materials.{name}.B", tab["B"])
+            if isinstance(tab, dict) and "C" in tab:
+                m["C"] = self._numbers(f"materials.{name}.C", tab["C"])
+            mats[name] = m
+        v["materials"] = mats
+        regions = []
+        for i, r in enumerate(d.get("regions") or []):
+            regions.append(self._check_table(f"regions[{i}]", r, REGION_KEYS, natural))
+        v["regions"] = regions
+        if "scan" in d:
+            v["scan"] = self._check_table("scan", d["scan"], SCHEMA["scan"], natural)
+        self.values = v
+        if not self.errors:
+            self._cross_checks()
+        if self.errors:
+            raise ScenarioError("\n".join(self.errors))
+
+    def _numbers(self, path, value):
+        if not isinstance(value, list) or not all(isinstance(x, (int, float)) and not isinstance(x, bool)
+                                                  for x in value):
+            self._fail(path, value, "a list of numbers")
+            return []
+        return [float(x) for x in value]
+
+    def _cross_checks(self) -> None:
+        v = self.values
+        names = set(v["materials"]) | {"vacuum"}
+
+        def need_mat(path, name):
+            if name is None:
+                self.errors.append(f"{self.where}: {path} is missing: expected a material name")
+            elif name not in names:
+                near = difflib.get_close_matches(name, sorted(names), n=1)
+                hint = f" (did you mean {near[0]!r}?)" if near else ""
+                self._fail(path, name, f"one of the materials {sorted(names)}{hint}")
+
+        for name, m in v["materials"].items():
+            p = f"materials.{name}"
+            k = m["kind"]
+            if k == "constant" and m.get("eps") is None:
+                self.errors.append(f"{self.where}: {p}.eps is missing: a constant material needs eps")
+            if k == "polar":
+                if m.get("omega_to") is None or m.get("omega_lo") is None:
+                    self.errors.append(f"{self.where}: {p} (polar) needs omega_to and omega_lo")
+                elif m["omega_lo"] <= m["omega_to"]:
+                    self._fail(f"{p}.omega_lo", self.raw["materials"][name]["omega_lo"],
+                               "a longitudinal frequency above omega_to")
+            if k == "sellmeier" and (not m.get("B") or len(m.get("B") or []) != len(m.get("C") or [])):
+                self.errors.append(f"{self.where}: {p} (sellmeier) needs lists B and C of equal length")
+            if k == "table" and not m.get("file"):
+                self.errors.append(f"{self.where}: {p}.file is missing: a table material needs a CSV file")
+            for i, pole in enumerate(m["poles"]):
+                if pole["kind"] == "lorentz" and (pole.get("delta_eps") is None or pole.get("omega") is None):
+                    self.errors.append(f"{self.where}: {p}.poles[{i}] (lorentz) needs delta_eps and omega")
+                if pole["kind"] == "drude" and pole.get("omega_p") is None:
+                    self.errors.append(f"{self.where}: {p}.poles[{i}] (drude) needs omega_p")
+                if pole["kind"] == "drude" and pole.get("beta_nl"):
+                    self._fail(f"{p}.poles[{i}].beta_nl", self.raw["materials"][name]["poles"][i]["beta_nl"],
+                               "0 for a Drude pole (spatial dispersion is offered for Lorentz poles only)")
+            if k != "polar" and m.get("beta_nl"):
+                self._fail(f"{p}.beta_nl", self.raw["materials"][name]["beta_nl"],
+                           "no material-level beta_nl unless kind = 'polar' (give it per pole)")
+        g = v["geometry"]
+        need_mat("geometry.background", g["background"])
+        if g["kind"] in ("half-space", "slab"):
+            need_mat("geometry.material", g["material"])
+            if g["kind"] == "slab" and g["thickness"] is None:
+                self.errors.append(f"{self.where}: geometry.thickness is missing: a slab needs a thickness")
+        if g["kind"] == "slot":
+            need_mat("geometry.lower", g["lower"])
+            need_mat("geometry.upper", g["upper"])
+            if g["gap"] is None:
+                self.errors.append(f"{self.where}: geometry.gap is missing: a slot needs a gap width")
+        for i, r in enumerate(v["regions"]):
+            need_mat(f"regions[{i}].material", r["material"])
+        s = v["source"]
+        if s["kind"] == "dipole" and s.get("frequency") is None:
+            self.errors.append(f"{self.where}: source.frequency is missing: a dipole needs its rest-frame "
+                               "frequency (e.g. \"2.1 eV\")")
+        if s["kind"] == "charge" and s.get("max_frequency") is None and v["grid"].get("cell") is None:
+            self.errors.append(f"{self.where}: source.max_frequency (or grid.cell) is missing: a charge "
+                               "needs the highest frequency of interest to size the grid")
+        if s["speed"] is not None and s["speed"] <= 0 and v["run"]["kind"] == "comoving":
+            self._fail("source.speed", self.raw.get("source", {}).get("speed"),
+                       "a speed > 0 for a co-moving cell")
+        if s.get("gap_fraction") is not None and g["kind"] != "slot":
+            self._fail("source.gap_fraction", s["gap_fraction"], 'a "slot" geometry (or use source.height)')
+        grid = v["grid"]
+        if grid.get("cell") is None and grid.get("cells_per_wavelength") is None:
+            grid["cells_per_wavelength"] = 20.0
+        if v["run"]["kind"] == "open" and v["run"].get("time") is None:
+            self.errors.append(f"{self.where}: run.time is missing: an open-domain run needs its duration")
+        pol = grid.get("polarization")
+        if pol is None:
+            grid["polarization"] = "tm" if (s["kind"] == "dipole" and s["axis"] == "z") else "te"
+        elif s["kind"] == "charge" and pol != "te":
+            self._fail("grid.polarization", pol, '"te" (a moving line charge lives in TE_z)')
+        elif s["kind"] == "dipole":
+            allowed = {"te": ("x", "y"), "tm": ("z",), "1d": ("y",)}[pol]
+            if s["axis"] not in allowed:
+                self._fail("source.axis", s["axis"], f"one of {list(allowed)} for polarization {pol!r}")
+        rec = v["record"]
+        for i, y in enumerate(rec.get("flux_heights") or ()):
+            try:
+                Q.parse(y, "length", f"record.flux_heights[{i}]", self.where, self.natural)
+            except ScenarioError as exc:
+                self.errors.append(str(exc))
+        if "scan" in v:
+            key = v["scan"]["key"]
+            sec, _, leaf = key.partition(".")
+            if sec not in SCHEMA or leaf not in SCHEMA.get(sec, {}):
+                self._fail("scan.key", key, "a key path such as \"source.speed\" or \"geometry.gap\"")
+
+    # -- resolution ---------------------------------------------------------
+    def resolve(self) -> Resolved:
+        return Resolved(self)
+
+    def scan_points(self) -> list[Scenario]:
+        """One scenario per scan value (or [self] without a scan)."""
+        if "scan" not in self.values:
+            return [self]
+        key = self.values["scan"]["key"]
+        pts = []
+        for val in self.values["scan"]["values"]:
+            data = copy.deepcopy(self.raw)
+            data.pop("scan")
+            sec, leaf = key.split(".", 1)
+            data.setdefault(sec, {})[leaf] = val
+            pts.append(Scenario(data, f"{self.where} [{key} = {val!r}]", None))
+        return pts
+
+
+# ----------------------------------------------------------------------------- resolved plan
+@dataclass
+class Resolved:
+    """A scenario in normalized units (lengths in ell, frequencies in c/ell), ready to build."""
+
+    scenario: Scenario
+    ell: float = 0.0
+    materials: dict = field(default_factory=dict)
+    notes: list = field(default_factory=list)
+
+    def __post_init__(self) -> None:
+        v = self.scenario.values
+        u = v["units"]
+        s = v["source"]
+        if self.scenario.natural is not None:
+            self.ell = self.scenario.natural.length
+        elif u.get("length") is not None:
+            self.ell = u["length"]
+        elif s["kind"] == "dipole":
+            self.ell = sc.c / s["frequency"]
+        else:
+            self.ell = sc.c / s["max_frequency"] if s.get("max_frequency") else 1e-6
+        from fdtd.units import UnitSystem
+
+        self.units = UnitSystem(self.ell, u["field"], 1 if v["grid"]["polarization"] == "1d" else 2)
+        self.materials = {"vacuum": VACUUM}
+        for name, m in v["materials"].items():
+            self.materials[name] = self._material(name, m)
+
+    # unit helpers ------------------------------------------------------------
+    def L(self, x_si: float | None) -> float | None:
+        return None if x_si is None else x_si / self.ell
+
+    def W(self, w_si: float | None) -> float | None:
+        return None if w_si is None else w_si * self.ell / sc.c
+
+    def T(self, t_si: float | None) -> float | None:
+        return None if t_si is None else t_si * sc.c / self.ell
+
+    def _material(self, name: str, m: dict) -> Material:
+        k = m["kind"]
+        if k == "constant":
+            return Material(m["eps"], (), name)
+        if k == "poles":
+            poles = []
+            for p in m["poles"]:
+                if p["kind"] == "lorentz" and p.get("beta_nl"):
+                    poles.append(NonlocalLorentzPole(p["delta_eps"], self.W(p["omega"]), self.W(p["gamma"]),
+                                                     p["beta_nl"]))
+                elif p["kind"] == "lorentz":
+                    poles.append(LorentzPole(p["delta_eps"], self.W(p["omega"]), self.W(p["gamma"])))
+                else:
+                    poles.append(DrudePole(self.W(p["omega_p"]), self.W(p["gamma"])))
+            return Material(m["eps_inf"], tuple(poles), name)
+        if k == "polar":
+            wt, wl = self.W(m["omega_to"]), self.W(m["omega_lo"])
+            de = m["eps_inf"] * (wl**2 - wt**2) / wt**2        # Lyddane-Sachs-Teller
+            if m.get("beta_nl"):
+                return Material(m["eps_inf"], (NonlocalLorentzPole(de, wt, self.W(m["gamma"]), m["beta_nl"]),),
+                                name)
+            return Material(m["eps_inf"], (LorentzPole(de, wt, self.W(m["gamma"])),), name)
+        if k == "sellmeier":
+            poles = []
+            for B, C in zip(m["B"], m["C"]):
+                lam = math.sqrt(C) * 1e-6                       # C in um^2
+                poles.append(LorentzPole(B, self.W(2 * math.pi * sc.c / lam), 0.0))
+            return Material(1.0, tuple(poles), name)
+        # table: fitted by the material library
+        from fdtd.media import library as ml  # noqa: F401  (optional module)
+
+        path = Path(m["file"])
+        if not path.is_absolute():
+            path = Path(self.scenario.where).parent / path
+        fit = ml.material_from_table(path, ell=self.ell, n_lorentz=m["n_lorentz"], n_drude=m["n_drude"],
+                                     name=name)
+        self.notes.append(f"material {name!r} fitted to {path.name}: rms residual {fit.residual:.2e}")
+        return fit.material

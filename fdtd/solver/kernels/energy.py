@@ -1,0 +1,104 @@
+r"""Stored-energy terms of the discrete energy ledger (see DEVELOPERS.md, "Energy ledger").
+
+At integer time level n the scheme conserves, in a lossless source-free
+closed region,
+
+.. math::
+   T^n = \sum \tfrac12\varepsilon_\infty (E^n)^2 + \tfrac12 H^{n+1/2}H^{n-1/2}
+        + \tfrac12 E^n\sum_s (P_s^n - P_s^{n-1})
+        + \sum_s \Big[\frac{(P_s^n-P_s^{n-1})^2}{2 b_s\Delta t^2}
+        + \frac{a_{0,s}}{2b_s} P_s^n P_s^{n-1}\Big],
+
+summed over the region with weight dV.  The functions here compute the
+pieces from the state at the start of step n (E^n, H^{n-1/2}, P^n, P^{n-1});
+``H^{n+1/2}`` is formed on the fly with the plain (non-CPML) Yee update,
+valid inside the ledger box.  Arrays are 2D ``[row, col]``; a 1D grid is
+passed as a single row.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from numba import njit, prange
+
+from fdtd.solver.kernels.options import PARALLEL, SERIAL
+
+
+@njit(**SERIAL)
+def e_terms(E, mix, P, Po, eps_inf, n_poles, kin, pot, gid, dt, r0, r1, q0, q1, wp_out):
+    """Return (sum eps_inf E^2 / 2, sum E dP / 2) over rows [r0, r1), cols [q0, q1).
+
+    Adds each pole's stored energy to ``wp_out[gid]``.  Sums are per unit dV.
+    """
+    we = 0.0
+    wx = 0.0
+    inv_dt2 = 1.0 / (dt * dt)
+    for i in range(r0, r1):
+        for j in range(q0, q1):
+            m = mix[i, j]
+            e = E[i, j]
+            we += 0.5 * eps_inf[m] * e * e
+            for s in range(n_poles[m]):
+                p = P[s, i, j]
+                po = Po[s, i, j]
+                d = p - po
+                wx += 0.5 * e * d
+                wp_out[gid[m, s]] += kin[m, s] * d * d * inv_dt2 + pot[m, s] * p * po
+    return we, wx
+
+
+@njit(**SERIAL)
+def h_terms_te(Hz, Ex, Ey, kx, ky, r0, r1, q0, q1):
+    """sum Hz^{n-1/2} Hz^{n+1/2} / 2 with the plain update; kx = dt/dx, ky = dt/dy."""
+    nx, ny = Hz.shape
+    w = 0.0
+    for i in range(r0, r1):
+        ip = (i + 1) % nx
+        for j in range(q0, q1):
+            jp = (j + 1) % ny
+            h = Hz[i, j]
+            hn = h - kx * (Ey[ip, j] - Ey[i, j]) + ky * (Ex[i, jp] - Ex[i, j])
+            w += 0.5 * h * hn
+    return w
+
+
+@njit(**SERIAL)
+def h_terms_tm(Hx, Hy, Ez, kx, ky, bx, by):
+    """sum (Hx Hx' + Hy Hy') / 2; bx, by = (r0, r1, q0, q1) boxes of Hx and Hy."""
+    nx, ny = Ez.shape
+    w = 0.0
+    for i in range(bx[0], bx[1]):
+        for j in range(bx[2], bx[3]):
+            jp = (j + 1) % ny
+            h = Hx[i, j]
+            w += 0.5 * h * (h - ky * (Ez[i, jp] - Ez[i, j]))
+    for i in range(by[0], by[1]):
+        ip = (i + 1) % nx
+        for j in range(by[2], by[3]):
+            h = Hy[i, j]
+            w += 0.5 * h * (h + kx * (Ez[ip, j] - Ez[i, j]))
+    return w
+
+
+@njit(**SERIAL)
+def h_terms_1d(Hz, Ey, kx, q0, q1):
+    n = Hz.shape[0]
+    w = 0.0
+    for i in range(q0, q1):
+        h = Hz[i]
+        w += 0.5 * h * (h - kx * (Ey[(i + 1) % n] - Ey[i]))
+    return w
+
+
+@njit(**PARALLEL)
+def sum_of_squares(a):
+    """sum a^2 over a 2D array (NaN/inf propagate), parallel over rows."""
+    n0 = a.shape[0]
+    acc = np.zeros(n0)
+    for i in prange(n0):
+        s = 0.0
+        row = a[i]
+        for j in range(row.shape[0]):
+            s += row[j] * row[j]
+        acc[i] = s
+    return acc.sum()

@@ -1,0 +1,433 @@
+r"""The solver: a model, its state arrays, sources, and the compiled steppers.
+
+Time levels: after ``step_count = n`` steps the solver holds ``E^n`` (time
+``n dt``), ``H^{n-1/2}``, ``P^n`` and ``P^{n-1}``.  One :meth:`Solver.step`
+
+1. asks every source for ``J^{n+1/2}`` and records ``E^n`` where needed,
+2. calls the compiled stepper (H to n+1/2, P to n+1, E to n+1),
+3. injects ``-dt J / eps_inf`` and books source work, bath heat and outflow.
+
+The time loop with stop criteria, progress and guard rails is
+:meth:`Solver.run`.
+"""
+
+from __future__ import annotations
+
+import math
+import time as _time
+import warnings
+
+import numba
+import numpy as np
+
+from fdtd import _checks
+from fdtd.errors import GeometryError, InstabilityError, ParameterError
+from fdtd.solver.kernels import energy as ek
+from fdtd.solver.kernels import nonlocal_pole as nlk
+from fdtd.solver.kernels.yee1d import step_1d
+from fdtd.solver.kernels.yee_te import step_te
+from fdtd.solver.kernels.yee_tm import step_tm
+from fdtd.solver.ledger import EnergyLedger
+from fdtd.space.model import Model
+from fdtd.experiment.progress import Progress
+from fdtd.sources.prescribed import Source
+from fdtd.space.stability import courant_number
+
+#: grids smaller than this run on one thread by default (parallel regions cost ~10 us)
+SMALL_GRID_CELLS = 250_000
+
+
+def staggered_zeros(shape, k: int) -> np.ndarray:
+    """Zeroed float64 array whose start is offset by ``k`` cache lines (64 B).
+
+    Large ``np.zeros`` arrays all begin at the same offset within a page; many
+    streams then collide in the cache.  Offsetting each array's start differently
+    removes that (see ../shared PERF-NOTES, measured 1.2-2.2x).
+    """
+    size = int(np.prod(shape))
+    buf = np.zeros(size + 8 * (k % 32) + 16)
+    shift = ((-buf.ctypes.data) % 64) // 8
+    start = shift + 8 * (k % 32)
+    return buf[start:start + size].reshape(shape)
+
+
+class Solver:
+    """Time-domain solver for one :class:`~fdtd.model.Model`.
+
+    Parameters
+    ----------
+    model : Model
+    dt : float, optional
+        Time step (normalized); refused above the stability limit.
+    courant : float, optional
+        Alternatively, the fraction of the stability limit (default 0.95).
+    sources : sequence of Source
+    threads : int, optional
+        Threads for the 2D kernels (default: 1 for small grids, else all).
+    ledger : bool
+        Keep the energy ledger (bath tally in the kernels, flux on the box faces).
+    ledger_margin : int
+        Cells between the absorbing layers and the ledger box.
+    check_every : int
+        Steps between guard-rail checks (non-finite fields, runaway energy).
+    allow_unstable_dt : bool
+        Accept a ``dt`` above the stability limit (with a warning); the guard
+        rails then stop the run when it blows up.
+    """
+
+    def __init__(self, model: Model, dt: float | None = None, courant: float | None = None,
+                 sources=(), threads: int | None = None, ledger: bool = True,
+                 ledger_margin: int = 1, check_every: int = 50, allow_unstable_dt: bool = False):
+        if not isinstance(model, Model):
+            raise ParameterError(f"model = {model!r}: expected an fdtd.Model")
+        self.model = model
+        g = model.grid
+        self.grid = g
+        self.dt = model.resolve_dt(dt, courant, allow_unstable=allow_unstable_dt)
+        self.courant_number = courant_number(self.dt, g.spacing)
+        self.tables = model.kernel_tables(self.dt)
+        self.profiles = model.profiles(self.dt)
+        if threads is None:
+            threads = 1 if g.n_cells < SMALL_GRID_CELLS else numba.config.NUMBA_NUM_THREADS
+        self.threads = _checks.positive_int("threads", threads)
+        if self.threads > numba.config.NUMBA_NUM_THREADS:
+            raise ParameterError(
+                f"threads = {threads} is not allowed: this machine offers at most "
+                f"{numba.config.NUMBA_NUM_THREADS} (NUMBA_NUM_THREADS)")
+        self.check_every = _checks.positive_int("check_every", check_every)
+        self.step_count = 0
+
+        # ---- state ---------------------------------------------------------
+        k = 0
+        self.fields: dict[str, np.ndarray] = {}
+        for c in g.e_components + g.h_components:
+            self.fields[c] = staggered_zeros(g.shape, k)
+            k += 1
+        ns = model.max_poles
+        self.polarization: dict[str, tuple[np.ndarray, np.ndarray]] = {}
+        pshape = (ns,) + ((1,) + g.shape if g.dims == 1 else g.shape)
+        for c in g.e_components:
+            if ns:
+                P = staggered_zeros(pshape, k)
+                Po = staggered_zeros(pshape, k + 1)
+                k += 2
+            else:
+                P = np.zeros((1, 1, 1))
+                Po = np.zeros((1, 1, 1))
+            self.polarization[c] = (P, Po)
+        n_gid = max(len(model.pole_labels), 1)
+        n_rows = g.shape[0] if g.dims == 2 else 1
+        self.bath_rows = np.zeros((n_rows, n_gid))
+        self._coef = (self.tables["inv_eps"], self.tables["n_poles"], self.tables["c1"],
+                      self.tables["c2"], self.tables["c3"])
+        self._bathc_all = np.ascontiguousarray(self.tables["bath"])
+        # the steppers tally the bath of local poles only; nonlocal slots are
+        # tallied after their Laplacian correction (kernels/nonlocal_pole.py)
+        self._bathc = np.where(self.tables["nlg"] >= 0, 0.0, self._bathc_all)
+        self._gid = np.ascontiguousarray(np.maximum(self.tables["gid"], 0))
+        self._prof = [self._profile_tuple(p, a) for a, p in enumerate(self.profiles)]
+        self.psi: dict[str, np.ndarray] = {}
+        self._allocate_psi()
+        self._segs = {c: (s.row_ptr, s.seg_start, s.seg_stop, s.seg_mix)
+                      for c, s in model.segments.items()}
+        self._flat_mix = {c: model.mix_maps[c].reshape(-1) for c in g.e_components}
+        self._setup_nonlocal()
+
+        # ---- ledger ----------------------------------------------------------
+        self.ledger: EnergyLedger | None = None
+        self._tally = bool(ledger)
+        box = model.interior_box(ledger_margin)
+        self.ledger_box = box
+        if ledger:
+            self.ledger = EnergyLedger(self, box)
+            self._tally_boxes = {c: self.ledger.tally_box(c) for c in g.e_components}
+        else:
+            self._tally_boxes = {c: np.zeros(4, dtype=np.int64) for c in g.e_components}
+
+        # ---- sources ---------------------------------------------------------
+        self.sources: list[Source] = []
+        for s in sources:
+            self.add_source(s)
+        self.injected_abs = 0.0     # sum |work| of sources, for the runaway guard
+        self.source_work = 0.0      # net work done on the field by sources
+        self._energy0: float | None = None
+        self.stop_reason = ""
+        self.observers: list = []   # objects with before_step(solver) / after_step(solver, injections)
+
+    # ------------------------------------------------------------------
+    @property
+    def time(self) -> float:
+        """Time of E (normalized): step_count * dt."""
+        return self.step_count * self.dt
+
+    def _profile_tuple(self, p, axis):
+        d = self.grid.spacing[axis]
+        dt = self.dt
+        return (int(p.n_lo), int(p.n_hi), dt / d * p.inv_kappa_int, dt / d * p.inv_kappa_half,
+                p.b_int, dt * p.c_int, p.b_half, dt * p.c_half)
+
+    def _allocate_psi(self) -> None:
+        g = self.grid
+        pol = g.polarization
+        npx = self.profiles[0].n_pml
+        if pol == "1d":
+            for key in ("hz_x", "ey_x"):
+                self.psi[key] = np.zeros(npx)
+            return
+        nx, ny = g.shape
+        npy = self.profiles[1].n_pml
+        names_x = ("hz_x", "ey_x") if pol == "te" else ("hy_x", "ez_x")
+        names_y = ("hz_y", "ex_y") if pol == "te" else ("hx_y", "ez_y")
+        for key in names_x:
+            self.psi[key] = np.zeros((npx, ny))
+        for key in names_y:
+            self.psi[key] = np.zeros((nx, npy))
+
+    def _setup_nonlocal(self) -> None:
+        """Work arrays of the nonlocal poles: per E component, the slots that hold
+        one, the row range they occupy, and Q / P^{n-1} buffers (rows, cols)."""
+        g = self.grid
+        self._nonlocal: dict[str, list] = {}
+        self.nonlocal_outflow = 0.0
+        nlg = self.tables["nlg"]
+        if not (nlg >= 0).any():
+            return
+        if g.dims == 1:
+            self._nl_inv_h2 = (0.0, 1.0 / g.spacing[0] ** 2)
+            self._nl_periodic = (True, bool(self.model.periodic[0]))
+        else:
+            self._nl_inv_h2 = (1.0 / g.spacing[0] ** 2, 1.0 / g.spacing[1] ** 2)
+            self._nl_periodic = (bool(self.model.periodic[0]), bool(self.model.periodic[1]))
+        fractions = self.model.material_fraction_table()
+        for c in g.e_components:
+            mix2 = self.model.mix_maps[c].reshape(1, -1) if g.dims == 1 else self.model.mix_maps[c]
+            mix2 = np.ascontiguousarray(mix2)
+            entries = []
+            for s in range(nlg.shape[1]):
+                groups = nlg[mix2, s]
+                if not (groups >= 0).any():
+                    continue
+                rws = np.nonzero((groups >= 0).any(axis=1))[0]
+                rows = (int(rws[0]), int(rws[-1]) + 1)
+                diag = np.zeros(mix2.shape)
+                wall = mix2 == 0                       # mixture 0: the conducting wall
+                offs = g.offsets(c)
+                # beyond a closed edge: the wall is the wrapped node 0 (integer nodes) or half a
+                # cell away (half nodes); 1D arrays are one row
+                edge = (0.5, 1.0 if offs[0] == 0.0 else 0.5) if g.dims == 1 else \
+                    tuple(1.0 if o == 0.0 else 0.5 for o in offs)
+                for gid in np.unique(groups[groups >= 0]):
+                    fill = fractions[mix2, self.model.pole_material(int(gid))]
+                    diag += nlk.boundary_diagonal(groups == gid, fill, self._nl_inv_h2,
+                                                  self._nl_periodic, wall, edge)
+                entries.append((s, mix2, rows, np.zeros(mix2.shape), np.zeros(mix2.shape), diag))
+            if entries:
+                self._nonlocal[c] = entries
+
+    def _nonlocal_prepass(self) -> None:
+        t = self.tables
+        for c, entries in self._nonlocal.items():
+            P, Po = self.polarization[c]
+            for s, mix2, rows, Q, Pold, diag in entries:
+                nlk.prepass(P, Po, s, mix2, t["nlg"], t["c4"], diag, self._nl_inv_h2,
+                            self._nl_periodic, rows, Q, Pold)
+
+    def _nonlocal_postpass(self) -> None:
+        t = self.tables
+        g = self.grid
+        out = 0.0
+        for c, entries in self._nonlocal.items():
+            P, Po = self.polarization[c]
+            E2 = self.fields[c].reshape(1, -1) if g.dims == 1 else self.fields[c]
+            for s, mix2, rows, Q, Pold, _diag in entries:
+                out += nlk.postpass(P, Po, E2, s, mix2, t["nlg"], t["inv_eps"], Q, Pold, rows,
+                                    self._tally, self._tally_boxes[c], self._bathc_all, self._gid,
+                                    self.bath_rows, t["kappa"], self._nl_inv_h2, self._nl_periodic)
+        if self.ledger is not None:
+            self.ledger.outflow += out * g.cell_volume
+        self.nonlocal_outflow += out * g.cell_volume
+
+    def add_source(self, source: Source) -> None:
+        if not isinstance(source, Source):
+            raise ParameterError(f"source {source!r}: expected an fdtd Source")
+        source.bind(self)
+        self.sources.append(source)
+
+    def check_outside_absorbers(self, component: str, idx: np.ndarray, what: str = "source") -> None:
+        """Refuse nodes (int array (m, dims)) that lie in an absorbing layer or on a wall."""
+        g = self.grid
+        for a in range(g.dims):
+            p = self.profiles[a]
+            if p.n_pml == 0 and self.model.periodic[a]:
+                continue
+            sig = p.sigma_int if g.offsets(component)[a] == 0.0 else p.sigma_half
+            k = idx[:, a]
+            bad = sig[k] > 0
+            if not self.model.periodic[a]:
+                bad |= (k == 0) & (g.offsets(component)[a] == 0.0)
+            if np.any(bad):
+                kk = int(k[bad][0])
+                raise GeometryError(
+                    f"{what} at index {kk} along {'xy'[a]} lies inside the absorbing layer or on "
+                    f"the wall ({p.n_lo} cells at the low side, {p.n_hi} at the high side of "
+                    f"{g.shape[a]}): move it into the interior")
+
+    # ------------------------------------------------------------------
+    def _kernel(self) -> None:
+        if self._nonlocal:
+            self._nonlocal_prepass()
+        self._local_kernel()
+        if self._nonlocal:
+            self._nonlocal_postpass()
+
+    def _local_kernel(self) -> None:
+        g = self.grid
+        f = self.fields
+        psi = self.psi
+        t = self._tally
+        if g.polarization == "te":
+            Px, Pxo = self.polarization["Ex"]
+            Py, Pyo = self.polarization["Ey"]
+            numba.set_num_threads(self.threads)
+            step_te(f["Ex"], f["Ey"], f["Hz"], Px, Pxo, Py, Pyo, self._segs["Ex"], self._segs["Ey"],
+                    self._coef, self._prof[0], self._prof[1], psi["hz_x"], psi["ey_x"], psi["hz_y"],
+                    psi["ex_y"], self.threads, t, self.bath_rows, self._gid, self._bathc,
+                    self._tally_boxes["Ex"], self._tally_boxes["Ey"])
+        elif g.polarization == "tm":
+            Pz, Pzo = self.polarization["Ez"]
+            numba.set_num_threads(self.threads)
+            step_tm(f["Ez"], f["Hx"], f["Hy"], Pz, Pzo, self._segs["Ez"], self._coef, self._prof[0],
+                    self._prof[1], psi["hy_x"], psi["ez_x"], psi["hx_y"], psi["ez_y"], self.threads,
+                    t, self.bath_rows, self._gid, self._bathc, self._tally_boxes["Ez"])
+        else:
+            Py, Pyo = self.polarization["Ey"]
+            step_1d(f["Ey"], f["Hz"], Py, Pyo, self._segs["Ey"], self._coef, self._prof[0],
+                    psi["hz_x"], psi["ey_x"], t, self.bath_rows[0], self._gid, self._bathc,
+                    self._tally_boxes["Ey"])
+
+    def step(self, n: int = 1) -> None:
+        """Advance ``n`` steps (no guard rails; see :meth:`run`)."""
+        dt = self.dt
+        inv_eps = self.tables["inv_eps"]
+        dV = self.grid.cell_volume
+        for _ in range(n):
+            t_half = (self.step_count + 0.5) * dt
+            inj = []
+            for src in self.sources:
+                for comp, flat, J in src.currents(t_half):
+                    if flat.size:
+                        inj.append((comp, flat, np.asarray(J, dtype=float),
+                                    self.fields[comp].reshape(-1)[flat]))
+            flux_before = self.ledger.flux_gather() if self.ledger is not None else None
+            for obs in self.observers:
+                obs.before_step(self)
+            self._kernel()
+            work = 0.0
+            for comp, flat, J, _e0 in inj:
+                ef = self.fields[comp].reshape(-1)
+                np.subtract.at(ef, flat, dt * J * inv_eps[self._flat_mix[comp][flat]])
+            for comp, flat, J, e0 in inj:
+                e1 = self.fields[comp].reshape(-1)[flat]
+                work -= dt * float(np.dot(J, 0.5 * (e0 + e1))) * dV
+            self.source_work += work
+            self.injected_abs += abs(work)
+            if self.ledger is not None:
+                self.ledger.source_work += work
+                self.ledger.flux_accumulate(flux_before)
+            self.step_count += 1
+            # observers see the completed step: E^{n+1}, H^{n+1/2}, step_count = n + 1
+            for obs in self.observers:
+                obs.after_step(self, inj)
+
+    # ------------------------------------------------------------------
+    def field_energy_measure(self) -> float:
+        """0.5 * sum (E^2 + H^2) dV over the whole grid (a cheap size measure)."""
+        tot = 0.0
+        for a in self.fields.values():
+            tot += ek.sum_of_squares(a.reshape(a.shape[0], -1) if a.ndim > 1 else a.reshape(1, -1))
+        return 0.5 * tot * self.grid.cell_volume
+
+    def check_health(self) -> None:
+        """Raise InstabilityError on non-finite fields or energy beyond what was put in."""
+        w = self.field_energy_measure()
+        if not math.isfinite(w):
+            raise InstabilityError(
+                f"non-finite fields at step {self.step_count} (t = {self.time:.6g}); the run is "
+                f"unstable: dt = {self.dt:.6g} (limit {self.model.max_stable_dt():.6g})")
+        if self._energy0 is None:
+            self._energy0 = w
+            return
+        eps_min = min(1.0, min((m.eps_inf for m in self.model.mixtures if not m.is_wall), default=1.0))
+        bound = 10.0 / eps_min * (self._energy0 + self.injected_abs) + 1e-300
+        if w > bound and w > 1e-200:
+            raise InstabilityError(
+                f"field energy {w:.4e} at step {self.step_count} exceeds ten times what was put in "
+                f"({(self._energy0 + self.injected_abs):.4e}): the run is unstable "
+                f"(dt = {self.dt:.6g}, limit {self.model.max_stable_dt():.6g})")
+
+    def run(self, steps: int | None = None, until: float | None = None, progress: bool | None = None,
+            ledger_every: int | None = None, callback=None, callback_every: int = 1) -> str:
+        """Advance with guard rails until a stop criterion; return why it stopped.
+
+        Parameters
+        ----------
+        steps : int, optional
+            Number of steps to take.
+        until : float, optional
+            Or run until ``time >= until`` (normalized time).
+        progress : bool, optional
+            Show a progress line (default: when stderr is a terminal).
+        ledger_every : int, optional
+            Sample the energy ledger every that many steps (and at both ends).
+        callback : callable(solver), optional
+            Called every ``callback_every`` steps (recorders).
+        """
+        if steps is None and until is None:
+            raise ParameterError("run needs a stop criterion: steps=... or until=...")
+        if steps is None:
+            until = _checks.finite_number("until", until)
+            steps = max(int(math.ceil(until / self.dt - 1e-9)) - self.step_count, 0)
+        steps = _checks.positive_int("steps", steps, minimum=0)
+        bar = Progress(steps, self.dt, enabled=progress)
+        if self._energy0 is None:
+            self.check_health()
+        if self.ledger is not None and not self.ledger.samples:
+            self.ledger.sample()
+        start = self.step_count
+        self.stop_reason = "running"
+        t0 = _time.perf_counter()
+        try:
+            done = 0
+            while done < steps:
+                chunk = min(self.check_every, steps - done)
+                if ledger_every:
+                    chunk = min(chunk, ledger_every - (self.step_count - start) % ledger_every)
+                if callback is not None:
+                    chunk = min(chunk, callback_every - (self.step_count - start) % callback_every)
+                self.step(chunk)
+                done += chunk
+                if (self.step_count - start) % self.check_every == 0 or done == steps:
+                    self.check_health()
+                if ledger_every and self.ledger is not None and \
+                        (self.step_count - start) % ledger_every == 0:
+                    self.ledger.sample()
+                if callback is not None and (self.step_count - start) % callback_every == 0:
+                    callback(self)
+                bar.update(done)
+            self.stop_reason = f"completed {steps} steps"
+        except KeyboardInterrupt:
+            self.stop_reason = f"interrupted at step {self.step_count}"
+            raise
+        except InstabilityError as exc:
+            self.stop_reason = f"unstable: {exc}"
+            raise
+        finally:
+            bar.close()
+            self.wall_time = _time.perf_counter() - t0
+            if self.ledger is not None and self.ledger.samples and \
+                    self.ledger.samples[-1].step != self.step_count:
+                try:
+                    self.ledger.sample()
+                except Exception:  # pragma: no cover - never hide the original error
+                    warnings.warn("could not take the final ledger sample", stacklevel=2)
+        return self.stop_reason
