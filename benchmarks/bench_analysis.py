@@ -54,7 +54,7 @@ def recorder_overhead(length, cell, steps=200, repeats=3, m_max=None, every=1, h
                           absorber=1.5)
     s = f.Solver(model, dt=commensurate_dt(model, length / v))
     src = MovingDipole(1.0, w0, UniformMotion((0.0, 0.5), (v, 0.0)), axis="y", ramp=5.0)
-    s.add_source(src)
+    s.attach(src)
     s.step(5)
     rows = [model.grid.index_of("Ex", (0, y))[1] for y in (1.2, 0.0)]
     recs = [DopplerWorkRecorder(s, src, v, src.lab_frequency(), start=0.0, m_max=m_max, every=every),

@@ -251,7 +251,7 @@ def source_cost(n: int = 2048, steps: int = 20, repeats: int = 5) -> dict:
     threads = min(2, numba.config.NUMBA_NUM_THREADS)
     s = build(n, threads, ledger=False)
     src = MovingDipole(1.0, 0.3, UniformMotion((0.3 * n, 0.7 * n), (0.5, 0.0)), axis="y", ramp=5.0)
-    s.add_source(src)
+    s.attach(src)
     s.step(3)
     best = {False: np.inf, True: np.inf}
     for _ in range(repeats):

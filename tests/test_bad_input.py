@@ -72,17 +72,17 @@ def test_source_in_absorbing_layer_or_wrong_component():
     model = f.Model(g, edges=f.CPML(8))
     s = f.Solver(model)
     with pytest.raises(f.GeometryError, match="inside the absorbing layer"):
-        s.add_source(f.line_current(s, "Ey", (0.3, 2.0), 1.0, f.ContinuousWave(1.0)))
+        s.attach(f.line_current(s, "Ey", (0.3, 2.0), 1.0, f.ContinuousWave(1.0)))
     with pytest.raises(f.ParameterError, match=r"component = 'Ez' cannot be carried by polarization 'te'"):
-        s.add_source(f.PrescribedCurrent("Ez", [(20, 20)], 1.0, f.ContinuousWave(1.0)))
+        s.attach(f.PrescribedCurrent("Ez", [(20, 20)], 1.0, f.ContinuousWave(1.0)))
     with pytest.raises(f.GeometryError, match="spans"):
-        s.add_source(f.PrescribedCurrent("Ex", [(50, 20)], 1.0, f.ContinuousWave(1.0)))
+        s.attach(f.PrescribedCurrent("Ex", [(50, 20)], 1.0, f.ContinuousWave(1.0)))
 
 
 def test_run_needs_a_stop_criterion():
     s = f.Solver(f.Model(f.Grid((20,), (0.1,), "1d"), edges=f.Periodic()))
     with pytest.raises(f.ParameterError, match="stop criterion"):
-        s.run()
+        s.advance()
 
 
 def test_unstable_run_stops_with_clear_error(rng):
@@ -94,6 +94,6 @@ def test_unstable_run_stops_with_clear_error(rng):
         s = f.Solver(model, dt=1.05 * model.max_stable_dt(), allow_unstable_dt=True, check_every=20)
     s.fields["Ez"][...] = rng.standard_normal((32, 32))
     with pytest.raises(f.InstabilityError, match=r"exceeds ten times what was put in|non-finite"):
-        s.run(steps=5000)
+        s.advance(steps=5000)
     assert s.step_count < 5000
     assert s.stop_reason.startswith("unstable")

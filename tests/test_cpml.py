@@ -24,7 +24,7 @@ def _reflection_db(pol, comp, shape, sp, regions, src_pos, probes, steps, npml=1
         g = f.Grid(tuple(n + 2 * extra for n in shape), sp, pol, origin=tuple(-extra * d for d in sp))
         model = f.Model(g, regions, edges=f.CPML(npml))
         s = f.Solver(model, courant=0.9, ledger=False)
-        s.add_source(f.line_current(s, comp, src_pos, 1.0, f.GaussianPulse(1.0, 0.12, derivative=True)))
+        s.attach(f.line_current(s, comp, src_pos, 1.0, f.GaussianPulse(1.0, 0.12, derivative=True)))
         idx = [g.index_of(comp, p) for p in probes]
         rec = np.empty((steps, len(idx)))
         a = s.fields[comp]

@@ -136,7 +136,7 @@ def test_recorder_refuses_a_window_shorter_than_a_period():
     from fdtd.sources.worldlines import UniformMotion
 
     src = MovingDipole(1.0, 1.0, UniformMotion((0.0, 2.0), (0.5, 0.0)), axis="y")
-    s.add_source(src)
+    s.attach(src)
     with pytest.raises(f.ParameterError, match="shorter than one period"):
         DopplerWorkRecorder(s, src, 0.5, src.lab_frequency(), duration=3.0)   # transit is 8
     from fdtd.recording.doppler import DopplerFluxRecorder
@@ -168,9 +168,9 @@ def test_open_domain_passage_analysis_matches_continuum_reference():
     s = f.Solver(f.Model(g, [(f.HalfSpace("y", below=0.0), LZ)], edges=f.CPML(npml, alpha_max=0.2)),
                  courant=0.95, ledger=False)
     src = MovingDipole(1.0, W0, UniformMotion((2.0, h), (v, 0.0)), axis="y", ramp=10.0)
-    s.add_source(src)
+    s.attach(src)
     rec = PassageWorkRecorder(s, src, v, src.lab_frequency(), 45.0, 65.0, half_window=12.0)
-    s.run(until=(65.0 + 12.0 - 2.0) / v + 1.0)
+    s.advance(to_time=(65.0 + 12.0 - 2.0) / v + 1.0)
     sim = rec.result()
     ref = PlanarReference.like_simulation(Stack.half_space(LZ), MovingLineSource("dipole", v, h, 1.0, W0, "y"),
                                           Shape(3, 2), d).solve()

@@ -68,8 +68,8 @@ def test_two_threads_bitwise_equal_to_one(pol, rng):
         s = f.Solver(model, courant=0.9, threads=threads)
         src = f.line_current(s, model.grid.e_components[-1], (1.2, 1.6), 1.0,
                              f.GaussianPulse(0.5, 0.15, derivative=True))
-        s.add_source(src)
-        s.run(steps=80)
+        s.attach(src)
+        s.advance(steps=80)
         results.append({c: a.copy() for c, a in s.fields.items()})
     for c in results[0]:
         assert np.array_equal(results[0][c], results[1][c]), c

@@ -26,8 +26,8 @@ def test_pulse_through_lossy_slab_into_absorbers(pol, comp):
         steps = 900
     model = f.Model(g, regions, edges=f.CPML(10))
     s = f.Solver(model, courant=0.9)
-    s.add_source(f.line_current(s, comp, pos, 1.0, f.GaussianPulse(1.5, 0.25, derivative=True)))
-    s.run(steps=steps, ledger_every=100)
+    s.attach(f.line_current(s, comp, pos, 1.0, f.GaussianPulse(1.5, 0.25, derivative=True)))
+    s.advance(steps=steps, ledger_every=100)
     led = s.ledger.summary()
     assert abs(led["relative_residual"]) < 1e-3          # the requirement
     assert abs(led["relative_residual"]) < 1e-11         # what the exact identity gives
@@ -49,8 +49,8 @@ def test_drude_and_lorentz_together_per_pole_bath():
     model = f.Model(g, [(f.HalfSpace("y", below=2.5), LOSSY), (f.Rectangle(2.0, 4.0, 4.0, 5.0), metal)],
                     edges=f.CPML(10))
     s = f.Solver(model, courant=0.9)
-    s.add_source(f.line_current(s, "Ex", (5.0, 3.5), 1.0, f.GaussianPulse(1.5, 0.25, derivative=True)))
-    s.run(steps=700, ledger_every=100)
+    s.attach(f.line_current(s, "Ex", (5.0, 3.5), 1.0, f.GaussianPulse(1.5, 0.25, derivative=True)))
+    s.advance(steps=700, ledger_every=100)
     bath = s.ledger.samples[-1].bath
     assert model.pole_labels == ["lossy-lorentz[0]", "metal[0]"]
     assert np.all(bath > 0)
@@ -64,7 +64,7 @@ def test_lossless_closed_cavity_conserves_stored_energy(rng):
     s = f.Solver(model, courant=0.95, ledger_margin=0)
     s.fields["Ez"][5:-5, 5:-5] = rng.standard_normal((30, 26))
     s.fields["Hx"][...] = rng.standard_normal(g.shape)
-    s.run(steps=3000, ledger_every=500)
+    s.advance(steps=3000, ledger_every=500)
     stored = np.array([x.stored for x in s.ledger.samples])
     flux = np.array([x.outflow for x in s.ledger.samples])
     np.testing.assert_allclose(stored + flux, stored[0], rtol=1e-12)

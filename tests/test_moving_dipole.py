@@ -33,9 +33,9 @@ def test_no_anomalous_doppler_power_in_vacuum(pol, axis):
     model = comoving_cell(L, 2.0, 0.05, pol, absorber=1.0)
     s = f.Solver(model, dt=commensurate_dt(model, np.pi / Omega))
     src = MovingDipole(1.0, gam * Omega, UniformMotion((0.0, 0.0), (v, 0.0)), axis=axis, ramp=6.0)
-    s.add_source(src)
+    s.attach(src)
     rec = DopplerWorkRecorder(s, src, v, src.lab_frequency(), start=15.0, duration=6 * L / v)
-    s.run(until=15.0 + 6 * L / v)
+    s.advance(to_time=15.0 + 6 * L / v)
     r = rec.result()
     assert r.normal > 0
     assert abs(r.anomalous) < 1e-5 * r.normal, (r.anomalous, r.normal)
@@ -59,11 +59,11 @@ def test_lab_power_of_moving_dipole_equals_rest_power(pol, axis):
             s = f.Solver(f.Model(g, edges=f.CPML(npml)), courant=0.95)
             g_s = 1 / math.sqrt(1 - speed * speed)
             T = 2 * np.pi * g_s / w0                           # lab period
-            s.add_source(MovingDipole(p0, w0, UniformMotion((-2.5, 0.0), (speed, 0.0)), axis=axis,
+            s.attach(MovingDipole(p0, w0, UniformMotion((-2.5, 0.0), (speed, 0.0)), axis=axis,
                                       ramp=2.0 * T / g_s))
-            s.run(until=6 * T)
+            s.advance(to_time=6 * T)
             w, t = s.source_work, s.time
-            s.run(until=12 * T)
+            s.advance(to_time=12 * T)
             vals.append((s.source_work - w) / (s.time - t) / P0)
         results[speed] = (4 * vals[1] - vals[0]) / 3          # second-order extrapolation
     assert abs(results[0.0] - 1) < 0.01, results

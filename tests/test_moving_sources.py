@@ -51,11 +51,11 @@ def _gauss_run(edges, worldline, steps, shape=Shape(3, 2)):
     model = f.Model(g, [(f.HalfSpace("y", below=-0.6), LZ)], edges=edges)
     s = f.Solver(model, courant=0.9, ledger=False)
     q = MovingCharge(1.0, worldline, shape)
-    s.add_source(q)
+    s.attach(q)
     electrostatic_start(s, [q])
     scale = 1.0 / g.cell_volume          # q / dV
     r0 = np.abs(gauss_residual(s, [q])).max() / scale
-    s.run(steps=steps)
+    s.advance(steps=steps)
     return r0, np.abs(gauss_residual(s, [q])).max() / scale
 
 
@@ -86,8 +86,8 @@ def test_dipole_current_is_the_limit_of_two_opposite_charges(axis):
         g = f.Grid((120, 80), (d, d), "te", origin=(-1.5, -2.0))
         s = f.Solver(f.Model(g, edges=f.CPML(10)), courant=0.9, ledger=False)
         for src in make():
-            s.add_source(src)
-        s.run(steps=160)
+            s.attach(src)
+        s.advance(steps=160)
         return s.fields["Hz"].copy()
 
     dip = lambda: MovingDipole(1.0, w0, wl, axis=axis, phase=-np.pi / 2, ramp=0.5)  # noqa: E731
@@ -132,11 +132,11 @@ def test_uniformly_moving_static_dipole_hardly_radiates(axis, shape, bound):
     d, v = 1 / 40, 0.5
     g = f.Grid((260, 180), (d, d), "te", origin=(-3.0, -2.25))
     s = f.Solver(f.Model(g, edges=f.CPML(12)), courant=0.95)
-    s.add_source(MovingDipole(1.0, 1e-9, UniformMotion((-2.0, 0.0), (v, 0.0), ramp=2.0), axis=axis,
+    s.attach(MovingDipole(1.0, 1e-9, UniformMotion((-2.0, 0.0), (v, 0.0), ramp=2.0), axis=axis,
                               phase=0.0, shape=shape))
-    s.run(until=5.0)
+    s.advance(to_time=5.0)
     w, t = s.source_work, s.time
-    s.run(until=8.0)
+    s.advance(to_time=8.0)
     P = (s.source_work - w) / (s.time - t)
     P0 = (2 * np.pi) ** 3 / 16
     assert abs(P) < bound * P0, P / P0
@@ -147,19 +147,19 @@ def test_bad_placements_are_refused():
     g = f.Grid((60, 50), (0.05, 0.05), "te")
     s = f.Solver(f.Model(g, edges=f.CPML(8)))
     with pytest.raises(f.GeometryError, match="outside the interior"):
-        s.add_source(MovingCharge(1.0, UniformMotion((0.2, 1.2), (0.5, 0.0))))   # in the layer
-    s.add_source(MovingCharge(1.0, UniformMotion((1.2, 1.2), (0.5, 0.0))))
+        s.attach(MovingCharge(1.0, UniformMotion((0.2, 1.2), (0.5, 0.0))))   # in the layer
+    s.attach(MovingCharge(1.0, UniformMotion((1.2, 1.2), (0.5, 0.0))))
     with pytest.raises(f.GeometryError, match=r"moving source at x = .* outside the interior"):
-        s.run(steps=400)                                                          # leaves the grid
+        s.advance(steps=400)                                                          # leaves the grid
     with pytest.raises(f.ParameterError, match=r"dipole axis = 'z' cannot be carried by polarization 'te'"):
-        f.Solver(f.Model(g, edges=f.CPML(8))).add_source(
+        f.Solver(f.Model(g, edges=f.CPML(8))).attach(
             MovingDipole(1.0, 2.0, UniformMotion((1.2, 1.2), (0.1, 0.0)), axis="z"))
     tm = f.Solver(f.Model(f.Grid((60, 50), (0.05, 0.05), "tm"), edges=f.CPML(8)))
     with pytest.raises(f.ParameterError, match="needs the TE_z polarization"):
-        tm.add_source(MovingCharge(1.0, UniformMotion((1.2, 1.2), (0.1, 0.0))))
+        tm.attach(MovingCharge(1.0, UniformMotion((1.2, 1.2), (0.1, 0.0))))
     with pytest.raises(f.ParameterError, match="speed"):
         s2 = f.Solver(f.Model(g, edges=f.CPML(8)))
-        s2.add_source(MovingCharge(1.0, CallableWorldLine(lambda t: (1.2 + 1.1 * t, 1.2))))
+        s2.attach(MovingCharge(1.0, CallableWorldLine(lambda t: (1.2 + 1.1 * t, 1.2))))
 
 
 def test_numerical_cherenkov_warning_states_the_limit():
@@ -167,7 +167,7 @@ def test_numerical_cherenkov_warning_states_the_limit():
     s = f.Solver(f.Model(g, edges=[f.Periodic(), f.CPML(8)]), courant=0.95)
     with warnings.catch_warnings(record=True) as rec:
         warnings.simplefilter("always")
-        s.add_source(MovingCharge(1.0, UniformMotion((1.0, 1.5), (0.9, 0.0)), Shape(1, 1)))
+        s.attach(MovingCharge(1.0, UniformMotion((1.0, 1.5), (0.9, 0.0)), Shape(1, 1)))
     msgs = [str(w.message) for w in rec if issubclass(w.category, NumericalCherenkovWarning)]
     assert msgs and "speed limit" in msgs[0]
     # the stated limit is the Yee phase velocity at the cutoff for this Courant number
@@ -175,7 +175,7 @@ def test_numerical_cherenkov_warning_states_the_limit():
     assert f"{2 / (np.pi * nu) * math.asin(nu):.4g} c" in msgs[0]
     with warnings.catch_warnings():
         warnings.simplefilter("error")
-        f.Solver(f.Model(g, edges=[f.Periodic(), f.CPML(8)]), courant=0.95).add_source(
+        f.Solver(f.Model(g, edges=[f.Periodic(), f.CPML(8)]), courant=0.95).attach(
             MovingCharge(1.0, UniformMotion((1.0, 1.5), (0.5, 0.0))))
 
 

@@ -201,7 +201,7 @@ def _random_run(pol, dt, steps, rng):
         P, Po = s.polarization[c]
         P[...] = 0.1 * rng.standard_normal(P.shape)
         Po[...] = P
-    s.run(steps=steps, ledger_every=steps // 4)
+    s.advance(steps=steps, ledger_every=steps // 4)
     return s, sp
 
 
@@ -257,7 +257,7 @@ def _simulated_reflection(mat, dx, ws, surface_offset):
     runs = []
     for regions in ([(f.Slab("x", xs, np.inf), mat)], []):
         s = f.Solver(f.Model(g, regions, edges=f.CPML(npml)), dt=0.9 * dx, ledger=False)
-        s.add_source(f.line_current(s, "Ey", (-12.0,), 1.0,
+        s.attach(f.line_current(s, "Ey", (-12.0,), 1.0,
                                     f.GaussianPulse(t0=4.0, width=0.8, derivative=True)))
         runs.append(_record(s, "Ey", g.index_of("Ey", (-6.0,))[0], int(100.0 / s.dt)))
     t = np.arange(runs[0].size) * 0.9 * dx
@@ -301,9 +301,9 @@ def test_ledger_closes_with_a_slab_running_through_the_box(pol, comp):
         regions = [(f.Slab("y", -np.inf, 0.0), mat)]
         pos = (0.0, 0.5)
     s = f.Solver(f.Model(g, regions, edges=f.CPML(12)), courant=0.95)
-    s.add_source(f.line_current(s, comp, pos, 1.0, f.GaussianPulse(t0=0.6, width=0.15,
+    s.attach(f.line_current(s, comp, pos, 1.0, f.GaussianPulse(t0=0.6, width=0.15,
                                                                    derivative=True)))
-    s.run(until=8.0, ledger_every=10)
+    s.advance(to_time=8.0, ledger_every=10)
     led = s.ledger.summary()
     assert abs(led["relative_residual"]) < 1e-10, led
     assert led["bath_heat"] > 1e-3 * led["source_work"]

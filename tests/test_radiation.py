@@ -51,10 +51,10 @@ def _simulated_power(pol: str, cells_per_wavelength: int) -> float:
     model = f.Model(g, edges=f.CPML(npml))
     steps_per_period = int(np.ceil(1.0 / (0.95 * model.max_stable_dt())))
     s = f.Solver(model, dt=1.0 / steps_per_period)
-    s.add_source(f.line_current(s, comp, (0.0, 0.0), I0, f.ContinuousWave(OMEGA, I0, ramp=3.0)))
-    s.run(steps=10 * steps_per_period)           # ramp and transit to the layers
+    s.attach(f.line_current(s, comp, (0.0, 0.0), I0, f.ContinuousWave(OMEGA, I0, ramp=3.0)))
+    s.advance(steps=10 * steps_per_period)           # ramp and transit to the layers
     w0, out0 = s.source_work, s.ledger.outflow
-    s.run(steps=4 * steps_per_period)            # average over four whole periods
+    s.advance(steps=4 * steps_per_period)            # average over four whole periods
     p_src = (s.source_work - w0) / 4.0
     p_out = (s.ledger.outflow - out0) / 4.0
     assert abs(p_out / p_src - 1) < 1e-3          # what goes in comes out through the box

@@ -270,11 +270,11 @@ def _fdtd_power(pol, comp, h, eps=None, pec=False, cpw=20, npml=12, half=1.5):
     spp = int(math.ceil(1.0 / (0.95 * model.max_stable_dt())))        # steps per period
     s = f.Solver(model, dt=1.0 / spp)
     src = f.line_current(s, comp, (0.0, h), 1.0, f.ContinuousWave(W, 1.0, ramp=3.0))
-    s.add_source(src)
+    s.attach(src)
     height = float(g.axis_coordinates(comp, 1)[src.nodes[0][1]])
-    s.run(steps=10 * spp)
+    s.advance(steps=10 * spp)
     w0, o0 = s.source_work, s.ledger.outflow
-    s.run(steps=4 * spp)
+    s.advance(steps=4 * spp)
     p = (s.source_work - w0) / 4.0
     return p, height, (s.ledger.outflow - o0) / 4.0 / p - 1
 

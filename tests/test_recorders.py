@@ -85,7 +85,7 @@ def test_decimation_and_window_with_run():
         for c in ref:
             ref[c].append(solver.fields[c].copy())
 
-    s.run(steps=100, callback=grab, callback_every=1)
+    s.advance(steps=100, callback=grab, callback_every=1)
     levels = np.arange(5, 63, 3)                 # first E level >= start is 5; 62 dt <= stop
     assert rec.n_samples("Ey") == levels.size == 20
     np.testing.assert_allclose(rec.times("Ey"), levels * dt, rtol=1e-15)
@@ -115,7 +115,7 @@ def test_streaming_matches_memory_and_is_plain_hdf5(tmp_path):
     path = tmp_path / "line.h5"
     mem = FieldLineRecorder(s, ("Ey", "Hz"), "x", 1.5, every=2)
     disk = FieldLineRecorder(s, ("Ey", "Hz"), "x", 1.5, every=2, path=path, chunk=7)
-    s.run(steps=40)                              # 21 E samples, 20 H samples
+    s.advance(steps=40)                              # 21 E samples, 20 H samples
     # a crash now loses at most the unflushed chunk: a byte copy of the file is readable
     crash = tmp_path / "crash.h5"
     shutil.copyfile(path, crash)
@@ -125,9 +125,9 @@ def test_streaming_matches_memory_and_is_plain_hdf5(tmp_path):
     for c in ("Ey", "Hz"):
         np.testing.assert_array_equal(disk.data(c), mem.data(c))
         np.testing.assert_array_equal(disk.times(c), mem.times(c))
-    s.run(steps=10)
+    s.advance(steps=10)
     disk.close()
-    s.run(steps=10)                              # closed: records nothing more, no error
+    s.advance(steps=10)                              # closed: records nothing more, no error
     assert disk not in s.observers and mem.n_samples("Ey") == 31
     with h5py.File(path, "r") as h:
         assert {"Ey", "Hz", "time_E", "time_H", "coord_Ey", "coord_Hz"} <= set(h)
@@ -155,7 +155,7 @@ def test_memory_guard_warns_and_stops_open_record():
     row = 8 * NX + 8                             # one Ey row plus its time stamp
     rec = FieldLineRecorder(s, "Ey", "x", None, max_memory=10.5 * row)
     with pytest.warns(RuntimeWarning, match=r"max_memory.*path="):
-        s.run(steps=30)
+        s.advance(steps=30)
     assert rec.truncated and rec.n_samples("Ey") == 10
     np.testing.assert_array_equal(rec.times("Ey"), np.arange(10) * s.dt)
 
@@ -194,7 +194,7 @@ def test_dft_of_standing_wave_recovers_complex_amplitudes():
     T = N_PERIOD * dt
     # window of exactly one period for both kinds: E at 0..79 dt, H at 0.5..79.5 dt
     rec = DFTRecorder(s, ("Ey", "Hz"), [w, 2 * w, 0.0], start=0.0, stop=(N_PERIOD - 0.5) * dt)
-    s.run(steps=N_PERIOD + 20)
+    s.advance(steps=N_PERIOD + 20)
     win = rec.window
     assert win["Ey"].samples == win["Hz"].samples == N_PERIOD
     assert win["Ey"].start == 0.0 and win["Ey"].stop == pytest.approx((N_PERIOD - 1) * dt)
@@ -223,7 +223,7 @@ def test_dft_equals_fft_of_line_record_in_2d():
     rec = DFTRecorder(s, ("Ey", "Hz"), om, stop=(n - 0.5) * dt, region=(slice(None), j))
     pts = (np.array([3, 20, 33]), np.array([j, 2, j]))
     few = DFTRecorder(s, "Hz", om, stop=(n - 0.5) * dt, region=pts)
-    s.run(steps=n + 5)
+    s.advance(steps=n + 5)
     for c in ("Ey", "Hz"):
         x, t = line.data(c), line.times(c)
         assert x.shape == (n, 40)
@@ -264,6 +264,6 @@ def test_snapshot_memory_guard_and_past_times():
     s = te_solver()
     with pytest.raises(f.ParameterError, match=r"max_memory.*path="):
         SnapshotRecorder(s, ("Ex", "Ey", "Hz"), np.linspace(0, 1, 50), max_memory=1e6)
-    s.run(steps=10)
+    s.advance(steps=10)
     with pytest.raises(f.ParameterError, match=r"times\[0\] = 0.1 is earlier"):
         SnapshotRecorder(s, "Hz", [0.1, 1.0])

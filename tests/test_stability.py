@@ -21,7 +21,7 @@ def _random_run(pol, material, dt, steps, rng):
         s = f.Solver(model, dt=dt, allow_unstable_dt=True)
     for c in s.fields:
         s.fields[c][...] = rng.standard_normal(shape)
-    s.run(steps=steps, ledger_every=steps // 4)
+    s.advance(steps=steps, ledger_every=steps // 4)
     return s
 
 

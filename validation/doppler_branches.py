@@ -136,9 +136,9 @@ def open_domain(rep):
     s = f.Solver(f.Model(g, [(f.HalfSpace("y", below=0.0), LZ)], edges=f.CPML(npml, alpha_max=0.2)),
                  courant=0.95, ledger=False)
     src = MovingDipole(1.0, W0, UniformMotion((2.0, h), (v, 0.0)), axis="y", ramp=10.0)
-    s.add_source(src)
+    s.attach(src)
     rec = PassageWorkRecorder(s, src, v, src.lab_frequency(), 45.0, 65.0, half_window=12.0)
-    s.run(until=(65.0 + 12.0 - 2.0) / v + 1.0)
+    s.advance(to_time=(65.0 + 12.0 - 2.0) / v + 1.0)
     sim = rec.result()
     ref = PlanarReference.like_simulation(Stack.half_space(LZ), MovingLineSource("dipole", v, h, 1.0, W0, "y"),
                                           SHAPE, d)

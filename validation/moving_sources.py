@@ -143,9 +143,9 @@ def cone(rep: Report) -> None:
     model = comoving_cell(L, half, d, "te", background=GLASS, absorber=1.2)
     s = f.Solver(model, courant=0.95, ledger=False)
     q = MovingCharge(1.0, UniformMotion((0.0, 0.0), (v, 0.0), ramp=2.0), Shape(2, 1))
-    s.add_source(q)
+    s.attach(q)
     electrostatic_start(s, [q])
-    s.run(until=25.0)
+    s.advance(to_time=25.0)
     g = model.grid
     x = g.axis_coordinates("Hz", 0)
     y = g.axis_coordinates("Hz", 1)
@@ -186,8 +186,8 @@ def dipole_pair(rep: Report) -> None:
         g = f.Grid((120, 80), (d, d), "te", origin=(-1.5, -2.0))
         s = f.Solver(f.Model(g, edges=f.CPML(10)), courant=0.9, ledger=False)
         for src in make():
-            s.add_source(src)
-        s.run(steps=160)
+            s.attach(src)
+        s.advance(steps=160)
         return s.fields["Hz"].copy()
 
     fig, ax = figure(figsize=(5.5, 4))
@@ -230,11 +230,11 @@ def moving_dipole_power(rep: Report) -> None:
                 s = f.Solver(f.Model(g, edges=f.CPML(npml)), courant=0.95)
                 gs = 1 / math.sqrt(1 - speed * speed)
                 T = 2 * np.pi * gs / w0
-                s.add_source(MovingDipole(p0, w0, UniformMotion((-2.5, 0.0), (speed, 0.0)), axis=axis,
+                s.attach(MovingDipole(p0, w0, UniformMotion((-2.5, 0.0), (speed, 0.0)), axis=axis,
                                           ramp=2.0 * T / gs))
-                s.run(until=6 * T)
+                s.advance(to_time=6 * T)
                 w, t = s.source_work, s.time
-                s.run(until=12 * T)
+                s.advance(to_time=12 * T)
                 vals.append((s.source_work - w) / (s.time - t) / P0)
             rich = (4 * vals[2] - vals[1]) / 3
             rows.append((f"{pol} {axis}", speed, *(f"{x:.4f}" for x in vals), f"{rich:.4f}"))

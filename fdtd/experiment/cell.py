@@ -81,11 +81,11 @@ def charge_in_comoving_cell(medium: Material, speed: float, length: float, cell:
     solver = Solver(model, dt=commensurate_dt(model, transit))
     q = MovingCharge(charge, UniformMotion((0.0, height), (speed, 0.0), ramp=ramp),
                      shape if shape is not None else Shape(3, 2))
-    solver.add_source(q)
+    solver.attach(q)
     electrostatic_start(solver, [q])
     t0 = ramp + settle
     rec = DopplerWorkRecorder(solver, q, speed, 0.0, start=t0, duration=transits * transit)
-    solver.run(until=t0 + transits * transit)
+    solver.advance(to_time=t0 + transits * transit)
     return rec.result(), solver
 
 
@@ -190,8 +190,8 @@ def dipole_in_comoving_cell(speed: float, height: float, omega0: float, axis: st
         ramp = 3 * 2 * math.pi / omega0
     src = MovingDipole(moment, omega0, UniformMotion((0.0, height), (speed, 0.0)), axis=axis,
                        ramp=ramp, shape=shape if shape is not None else Shape(3, 2))
-    solver.add_source(src)
-    solver.run(until=ramp * gam)
+    solver.attach(src)
+    solver.advance(to_time=ramp * gam)
     steady, rates = run_until_steady(solver, transit, tol=settle_tol, max_time=max_settle)
     t0 = solver.time
     T = transits * transit
@@ -207,7 +207,7 @@ def dipole_in_comoving_cell(speed: float, height: float, omega0: float, axis: st
                                every=every) if rows else None
     solver.ledger.sample()
     a = solver.ledger.samples[-1]
-    solver.run(until=t0 + T)
+    solver.advance(to_time=t0 + T)
     b = solver.ledger.sample()
     led = {"source_work": b.source_work - a.source_work, "outflow": b.outflow - a.outflow,
            "bath": float(b.bath.sum() - a.bath.sum()), "stored_change": b.stored - a.stored,
@@ -250,9 +250,9 @@ def dipole_sheet_in_bulk(medium: Material, speed: float, omega0: float, length: 
     solver = Solver(model, dt=commensurate_dt(model, transit))
     src = MovingDipole(moment, omega0, UniformMotion((0.0,), (speed,)), axis="y", ramp=ramp,
                        shape=shape if shape is not None else Shape(3, 2))
-    solver.add_source(src)
+    solver.attach(src)
     t0 = max(start, ramp / math.sqrt(1.0 - speed * speed))
     rec = DopplerWorkRecorder(solver, src, speed, src.lab_frequency(), start=t0,
                               duration=transits * transit, m_max=m_max if m_max is not None else n // 2)
-    solver.run(until=t0 + transits * transit)
+    solver.advance(to_time=t0 + transits * transit)
     return rec.result(), solver

@@ -423,7 +423,7 @@ def build(p: Plan, res: Resolved):
         src = MovingCharge(p.charge, wl, shape)
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", NumericalCherenkovWarning)   # reported by check/plan instead
-        solver.add_source(src)
+        solver.attach(src)
     if p.source_kind == "charge":
         from fdtd.sources.electrostatics import electrostatic_start
 

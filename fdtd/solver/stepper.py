@@ -8,7 +8,7 @@ Time levels: after ``step_count = n`` steps the solver holds ``E^n`` (time
 3. injects ``-dt J / eps_inf`` and books source work, bath heat and outflow.
 
 The time loop with stop criteria, progress and guard rails is
-:meth:`Solver.run`.
+:meth:`Solver.advance`.
 """
 
 from __future__ import annotations
@@ -147,7 +147,7 @@ class Solver:
         # ---- sources ---------------------------------------------------------
         self.sources: list[Source] = []
         for s in sources:
-            self.add_source(s)
+            self.attach(s)
         self.injected_abs = 0.0     # sum |work| of sources, for the runaway guard
         self.source_work = 0.0      # net work done on the field by sources
         self._energy0: float | None = None
@@ -247,7 +247,7 @@ class Solver:
             self.ledger.outflow += out * g.cell_volume
         self.nonlocal_outflow += out * g.cell_volume
 
-    def add_source(self, source: Source) -> None:
+    def attach(self, source: Source) -> None:
         if not isinstance(source, Source):
             raise ParameterError(f"source {source!r}: expected an fdtd Source")
         source.bind(self)
@@ -365,7 +365,7 @@ class Solver:
                 f"({(self._energy0 + self.injected_abs):.4e}): the run is unstable "
                 f"(dt = {self.dt:.6g}, limit {self.model.max_stable_dt():.6g})")
 
-    def run(self, steps: int | None = None, until: float | None = None, progress: bool | None = None,
+    def advance(self, steps: int | None = None, to_time: float | None = None, progress: bool | None = None,
             ledger_every: int | None = None, callback=None, callback_every: int = 1) -> str:
         """Advance with guard rails until a stop criterion; return why it stopped.
 
@@ -373,8 +373,8 @@ class Solver:
         ----------
         steps : int, optional
             Number of steps to take.
-        until : float, optional
-            Or run until ``time >= until`` (normalized time).
+        to_time : float, optional
+            Or advance until ``time >= to_time`` (normalized time).
         progress : bool, optional
             Show a progress line (default: when stderr is a terminal).
         ledger_every : int, optional
@@ -382,11 +382,11 @@ class Solver:
         callback : callable(solver), optional
             Called every ``callback_every`` steps (recorders).
         """
-        if steps is None and until is None:
-            raise ParameterError("run needs a stop criterion: steps=... or until=...")
+        if steps is None and to_time is None:
+            raise ParameterError("advance needs a stop criterion: steps=... or to_time=...")
         if steps is None:
-            until = _checks.finite_number("until", until)
-            steps = max(int(math.ceil(until / self.dt - 1e-9)) - self.step_count, 0)
+            to_time = _checks.finite_number("to_time", to_time)
+            steps = max(int(math.ceil(to_time / self.dt - 1e-9)) - self.step_count, 0)
         steps = _checks.positive_int("steps", steps, minimum=0)
         bar = Progress(steps, self.dt, enabled=progress)
         if self._energy0 is None:
