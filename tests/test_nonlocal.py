@@ -268,19 +268,23 @@ def _simulated_reflection(mat, dx, ws, surface_offset):
 @pytest.mark.parametrize("surface_offset", [0.0, 0.5])
 def test_reflection_follows_pekar_boundary_condition_at_second_order(surface_offset):
     """A vacuum/medium surface on a node and between nodes: the simulated reflection
-    coefficient approaches the analytic Pekar one at second order in dx (the local
-    model is 20-100 % away at these frequencies, so the check sees the second wave)."""
+    coefficient approaches the analytic Pekar one at second order in dx (a log-log fit over
+    three resolutions; the local model is 20-100 % away at these frequencies, so the check
+    sees the second wave).  dx must divide the 20-unit offsets, or the surface leaves the
+    node / half node it is meant to sit on."""
     mat = _medium()
     ws = np.array([0.6, 0.9, 1.1, 1.4])
     r_ana = np.array([_pekar_reflection(w, mat) for w in ws])
     n_loc = np.sqrt(f.Material(EPS_INF, (mat.poles[0].local(),)).permittivity(ws))
     assert np.min(np.abs((1 - n_loc) / (1 + n_loc) - r_ana) / np.abs(r_ana)) > 0.2
     errs = []
-    for dx in (0.1, 0.05):
+    dxs = (0.2, 0.1, 0.05)
+    for dx in dxs:
         r = _simulated_reflection(mat, dx, ws, surface_offset)
         errs.append(np.max(np.abs(r - r_ana) / np.abs(r_ana)))
-    assert errs[1] < 0.01, errs
-    assert errs[0] / errs[1] > 3.0, errs        # second order: 4 expected
+    assert errs[-1] < 0.01, errs                # measured 0.0045 (on a node), 0.0053 (between)
+    # measured order 2.14 (on a node), 2.07 (between nodes)
+    assert 1.9 < loglog_slope(dxs, errs) < 2.3, errs
 
 
 # ----------------------------------------------------------------------------- ledger
@@ -386,15 +390,15 @@ def test_layered_reference_refuses_nonlocal_layers():
 def _assembled_minus_laplacian(solver, comp="Ey"):
     """-L of the first nonlocal slot of ``comp`` as a dense matrix over its member nodes,
     assembled column by column with the NumPy twin (1D grids)."""
-    s, mix2, _rows, _Q, _Pold, diag = solver._nonlocal[comp][0]
+    s, mix2, _rows, _Q, _Pold, diag = solver.nonlocal_entries[comp][0]
     member = solver.tables["nlg"][mix2, s] >= 0
     idx = np.nonzero(member.ravel())[0]
     cols = []
     for j in idx:
         e = np.zeros(member.size)
         e[j] = 1.0
-        cols.append(-nlk.laplacian_numpy(e.reshape(member.shape), member, diag, solver._nl_inv_h2,
-                                         solver._nl_periodic).ravel()[idx])
+        cols.append(-nlk.laplacian_numpy(e.reshape(member.shape), member, diag, solver.nonlocal_inv_h2,
+                                         solver.nonlocal_periodic).ravel()[idx])
     return np.array(cols).T
 
 
