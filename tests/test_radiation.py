@@ -64,8 +64,8 @@ def _simulated_power(pol: str, cells_per_wavelength: int) -> float:
 @pytest.mark.parametrize("pol", ["tm", "te"])
 def test_line_current_power_within_2_percent_and_second_order(pol):
     exact = _hankel_flux(pol, 1.0)
-    ppw = np.array([20, 40])
+    ppw = np.array([20, 28, 40])
     err = np.array([abs(_simulated_power(pol, n) / exact - 1) for n in ppw])
-    assert err[0] < 0.02, err
-    slope = loglog_slope(1.0 / ppw, err)
-    assert 1.8 < slope < 2.2, (err, slope)
+    assert err[0] < 0.02, err                  # measured 0.0051 (tm and te)
+    slope = loglog_slope(1.0 / ppw, err)       # three resolutions
+    assert 1.9 < slope < 2.1, (err, slope)     # measured 2.02 (tm and te)

@@ -37,6 +37,7 @@ import pytest
 import scipy.constants as sc
 import scipy.integrate as si
 import scipy.special as sp
+from helpers import loglog_slope
 
 import fdtd as f
 from fdtd.reference import rates
@@ -169,13 +170,16 @@ def test_free_space_powers_1d_and_2d_match_the_planar_reference():
     # delta functions); a vanishing Drude admixture eps = 1 - wp^2/(w^2 + i w) converges to
     # vacuum as wp^2.  Moving (Bulk1D needs v > 0): the rest-frame power gamma^2 P_int.
     errs = []
-    for wp in (0.1, 0.01):
+    wps = (0.1, 0.03, 0.01)
+    for wp in wps:
         med = f.Material(1.0, (f.DrudePole(wp, 1.0),), "faint Drude")
         res = rates.equivalent_rates(Bulk1D(med, 0.3, W, 0.7))
         errs.append(abs(res.ratio_down - 1))
         assert res.dims == 1 and res.axis == "y"
-        assert abs(res.ratio_up) < 1e-6 * (wp / 0.01) ** 2, res.ratio_up
-    assert errs[1] < 1e-5 and errs[1] < 0.02 * errs[0], errs     # O(wp^2): factor 100
+        # measured 2.5e-9 (wp / 0.01)^2
+        assert abs(res.ratio_up) < 1e-8 * (wp / 0.01) ** 2, res.ratio_up
+    assert errs[-1] < 1e-5, errs                                  # measured 1.24e-6
+    assert 1.95 < loglog_slope(wps, errs) < 2.05, errs            # O(wp^2); measured 2.0001
 
 
 def test_si_normalized_and_lab_frame_are_consistent():
