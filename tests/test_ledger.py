@@ -1,7 +1,8 @@
 """The energy ledger closes: stored energy change = source work - bath heat - outflow.
 
 The identity is exact for the discrete scheme (derivation in DEVELOPERS.md, "Energy
-ledger"), so the residual is at round-off; the issue asks for 1e-3.
+ledger"), so the residual is at round-off (measured <= 1.9e-15 of the source work; held
+to 1e-13).  The issue asked for 1e-3, which the round-off bound implies.
 """
 
 import numpy as np
@@ -29,8 +30,7 @@ def test_pulse_through_lossy_slab_into_absorbers(pol, comp):
     s.attach(f.line_current(s, comp, pos, 1.0, f.GaussianPulse(1.5, 0.25, derivative=True)))
     s.advance(steps=steps, ledger_every=100)
     led = s.ledger.summary()
-    assert abs(led["relative_residual"]) < 1e-3          # the issue's requirement
-    assert abs(led["relative_residual"]) < 1e-11         # what the exact identity gives
+    assert abs(led["relative_residual"]) < 1e-13         # exact identity; measured <= 1.3e-15
     # every channel is really exercised
     assert led["bath_heat"] > 0.05 * led["source_work"]
     assert led["outflow"] > 0.05 * led["source_work"]
@@ -40,7 +40,7 @@ def test_pulse_through_lossy_slab_into_absorbers(pol, comp):
     for b in s.ledger.samples[1:]:
         bal = (b.stored - a.stored) - (b.source_work - a.source_work) + (b.bath.sum() - a.bath.sum()) \
             + (b.outflow - a.outflow)
-        assert abs(bal) < 1e-11 * led["source_work"]
+        assert abs(bal) < 1e-13 * led["source_work"]    # measured <= 1.9e-15
 
 
 def test_drude_and_lorentz_together_per_pole_bath():
@@ -54,10 +54,13 @@ def test_drude_and_lorentz_together_per_pole_bath():
     bath = s.ledger.samples[-1].bath
     assert model.pole_labels == ["lossy-lorentz[0]", "metal[0]"]
     assert np.all(bath > 0)
-    assert abs(s.ledger.residual()) < 1e-11
+    assert abs(s.ledger.residual()) < 1e-13 * s.ledger.summary()["source_work"]  # measured 1.8e-15
 
 
-def test_lossless_closed_cavity_conserves_stored_energy(rng):
+def test_lossless_closed_cavity_box_energy_plus_face_flux_is_constant(rng):
+    """Lossless poles behind conducting walls: the ledger box stops one cell short of the
+    walls, so the energy inside it changes (measured by up to 1.3 %) by exactly what
+    crosses its faces, and no heat is booked."""
     lossless = f.Material(1.2, (f.LorentzPole(1.5, 2.5, 0.0), f.DrudePole(1.0, 0.0)), "lossless")
     g = f.Grid((40, 36), (0.1, 0.1), "tm")
     model = f.Model(g, [(f.Rectangle(1.0, 3.0, 1.0, 2.5), lossless)], edges=f.PEC())
@@ -68,3 +71,6 @@ def test_lossless_closed_cavity_conserves_stored_energy(rng):
     stored = np.array([x.stored for x in s.ledger.samples])
     flux = np.array([x.outflow for x in s.ledger.samples])
     np.testing.assert_allclose(stored + flux, stored[0], rtol=1e-12)
+    # the face flux really enters the sum (measured up to 1.3 % of the stored energy)
+    assert np.max(np.abs(flux)) > 1e-3 * stored[0]
+    assert all(np.all(x.bath == 0.0) for x in s.ledger.samples)

@@ -294,7 +294,8 @@ def test_reflection_follows_pekar_boundary_condition_at_second_order(surface_off
 def test_ledger_closes_with_a_slab_running_through_the_box(pol, comp):
     """A pulse onto a lossy nonlocal slab that runs into the absorbing layers (so it crosses
     the faces of the ledger box): stored + bath + outflow (including the energy carried
-    across the faces by the polarization gradient) balances the source work to 1e-10."""
+    across the faces by the polarization gradient) balances the source work to 1e-13
+    (measured <= 3.1e-16)."""
     mat = _medium(gamma=0.3, beta=0.4)
     if pol == "1d":
         g = f.Grid((160,), (0.05,), "1d", origin=(-4.0,))
@@ -309,10 +310,11 @@ def test_ledger_closes_with_a_slab_running_through_the_box(pol, comp):
                                                                    derivative=True)))
     s.advance(to_time=8.0, ledger_every=10)
     led = s.ledger.summary()
-    assert abs(led["relative_residual"]) < 1e-10, led
+    assert abs(led["relative_residual"]) < 1e-13, led
     assert led["bath_heat"] > 1e-3 * led["source_work"]
-    # the gradient channel matters: without it the balance would be off
-    assert abs(s.nonlocal_outflow) > 1e3 * abs(led["relative_residual"]) * abs(led["source_work"])
+    # the gradient channel matters: without it the balance would be off by far more than the
+    # tolerance (measured 4.4e-3 (1d) to 8.3e-3 (te) of the source work)
+    assert abs(s.nonlocal_outflow) > 1e-3 * led["source_work"]
 
 
 # -------------------------------------------------------------------------- scenarios

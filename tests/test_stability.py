@@ -1,4 +1,4 @@
-"""The stability limit of the combined Yee + ADE scheme (derivation in fdtd/stability.py
+"""The stability limit of the combined Yee + ADE scheme (derivation in fdtd/space/stability.py
 and DEVELOPERS.md), checked by the growth of runs just above and just below it."""
 
 import warnings
