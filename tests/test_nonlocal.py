@@ -2,9 +2,10 @@
 
 Model: P'' + gamma P' + Omega^2 P - beta^2 lap P = delta_eps Omega^2 E, i.e.
 chi(w, k) = delta_eps Omega^2 / (Omega^2 + beta^2 k^2 - w^2 - i gamma w), the exciton model
-with spatial dispersion of J. J. Hopfield and D. G. Thomas, Phys. Rev. 132, 563 (1963), with
-Pekar's additional boundary condition P = 0 at the surface (S. I. Pekar, Sov. Phys. JETP 6,
-785 (1958)); both from memory.  The boundary-condition problem is reviewed in
+with spatial dispersion of J. J. Hopfield and D. G. Thomas, Phys. Rev. 132, 563 (1963) (from
+memory), with Pekar's additional boundary condition P = 0 at the surface (S. I. Pekar,
+Zh. Eksp. Teor. Fiz. 33, 1022 (1957) [Sov. Phys. JETP 6, 785]; reference checked with the
+search tool in a later paper's reference list).  The boundary-condition problem is reviewed in
 V. M. Agranovich and V. L. Ginzburg, Sov. Phys. Usp. 5, 675 (1963), sec. 3e (checked).
 The discrete relations used below are derived in DEVELOPERS.md ("Nonlocal pole").
 """
@@ -399,7 +400,8 @@ def _assembled_minus_laplacian(solver, comp="Ey"):
     for j in idx:
         e = np.zeros(member.size)
         e[j] = 1.0
-        cols.append(-nlk.laplacian_numpy(e.reshape(member.shape), member, diag, solver.nonlocal_inv_h2,
+        cols.append(-nlk.laplacian_numpy(e.reshape(member.shape), member, diag,
+                                         solver.nonlocal_inv_h2,
                                          solver.nonlocal_periodic).ravel()[idx])
     return np.array(cols).T
 

@@ -4,9 +4,10 @@ Out-of-plane current (TM_z, Jz): radiated power per unit length P = eta0 k I0^2 
 In-plane current element (TE_z, Jy): P = eta0 k I0^2 / 16 (pattern cos^2 phi).
 Both are computed independently here from the 2D Green's function
 G = (i/4) H0^(1)(k rho) of (nabla^2 + k^2) G = -delta (e.g. W. C. Chew, Waves and
-Fields in Inhomogeneous Media, 1990, sec. 2.2; the TM result is the classic
+Fields in Inhomogeneous Media, 1990, sec. 2.2.1 "A Line Source", section checked in
+the book's table of contents with the search tool; the TM result is the classic
 line-source power, e.g. C. A. Balanis, Advanced Engineering Electromagnetics,
-2nd ed., 2012, ch. 11; both from memory): the exact near fields are built from
+2nd ed., 2012, ch. 11, from memory): the exact near fields are built from
 scipy.special.hankel1 / h1vp and their Poynting flux is integrated over circles.
 """
 

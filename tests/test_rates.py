@@ -3,17 +3,21 @@
 Outside sources (each named again beside its check):
 
 * Larmor's dipole power P = c^2 Z0 k^4 |p|^2/(12 pi): J. D. Jackson, Classical
-  Electrodynamics, 3rd ed. (1999), eq. 9.24 (from memory).
+  Electrodynamics, 3rd ed. (1999), eq. 9.24 (equation number and its k^4 |p|^2 form
+  confirmed by a discussion of that edition found with the search tool).
 * Wigner-Weisskopf spontaneous decay rate Gamma = omega^3 |d|^2/(3 pi eps0 hbar c^3):
-  V. Weisskopf and E. Wigner, Z. Phys. 63, 54 (1930); R. Loudon, The Quantum Theory of
-  Light, 3rd ed. (2000), sec. 2.5 (both from memory).
+  V. Weisskopf and E. Wigner, "Berechnung der natuerlichen Linienbreite auf Grund der
+  Diracschen Lichttheorie", Z. Phys. 63, 54 (1930) (reference checked); the SI form as in
+  R. Fitzpatrick, Introductory Quantum Mechanics (LibreTexts), sec. 12.11 "2P-1S
+  Transitions in Hydrogen" (checked); R. Loudon, The Quantum Theory of Light, 3rd ed.
+  (2000), sec. 2.5 (from memory).
 * Hydrogen 2p -> 1s (Lyman alpha): A = 6.2649e8 1/s, NIST Atomic Spectra Database
   (Kramida, Ralchenko, Reader and NIST ASD Team), H I 1s-2p (5-digit value as quoted in the
   issue; a search found the rounded 6.27e8 quoted from the NIST table, the 5 digits were not
-  re-verified).  Matrix element |<1s|e z|2p, m=0>| = (128 sqrt(2)/243) e a0: H. A. Bethe and
-  E. E. Salpeter, Quantum Mechanics of One- and Two-Electron Atoms (1957) (from memory),
-  recomputed here from the hydrogen wavefunctions (D. J. Griffiths, Introduction to Quantum
-  Mechanics, Table 4.7; from memory).
+  re-verified).  Matrix element |<1s|e z|2p, m=0>| = (128 sqrt(2)/243) e a0: Fitzpatrick,
+  sec. 12.11 (above; checked), and H. A. Bethe and E. E. Salpeter, Quantum Mechanics of
+  One- and Two-Electron Atoms (1957) (from memory), recomputed here from the hydrogen
+  wavefunctions (D. J. Griffiths, Introduction to Quantum Mechanics, Table 4.7; from memory).
 * 2D decay-rate enhancement beside a planar interface: angular-spectrum / layered Green's
   function method of L. Novotny and B. Hecht, Principles of Nano-Optics (2006), ch. 10
   ("Dipole emission near planar interfaces"), adapted to 2D (derivation in
@@ -21,7 +25,8 @@ Outside sources (each named again beside its check):
   r_p = (eps2 k1y - eps1 k2y)/(eps2 k1y + eps1 k2y) (Novotny & Hecht eq. 2.49, from memory);
   angular spectrum of the 2D Green's function (i/4) H0(k rho) = (i/4 pi) int dkx
   exp(i kx x + i ky |y|)/ky (W. C. Chew, Waves and Fields in Inhomogeneous Media (1990),
-  sec. 2.2, from memory).
+  sec. 2.2.1 "A Line Source"; the section checked in the table of contents, the formula
+  from memory).
 * Perfectly conducting wall: image dipoles (Jackson sec. 2.1, from memory) with the 2D line
   fields from the Hankel functions (tests/test_radiation.py), giving 1 - J0(2kh) (z),
   1 - J0(2kh) + J2(2kh) (x, parallel), 1 + J0(2kh) + J2(2kh) (y, normal), scipy.special.
@@ -121,9 +126,10 @@ def image_dipole_enhancement(axis, kh):
 
 
 def test_free_space_rate_3d_is_wigner_weisskopf():
-    """Classical Larmor power (Jackson eq. 9.24, from memory) / (hbar omega) with p0 = 2|d|
+    """Classical Larmor power (Jackson eq. 9.24, checked) / (hbar omega) with p0 = 2|d|
     equals the Wigner-Weisskopf rate omega^3 |d|^2/(3 pi eps0 hbar c^3) (Weisskopf & Wigner
-    1930; Loudon sec. 2.5; from memory), scipy.constants throughout."""
+    1930; Fitzpatrick sec. 12.11, checked; see the module docstring), scipy.constants
+    throughout."""
     for omega in (1e12, 2.9e15, 7e18):
         for d in (1e-32, 8.478e-30, 3e-28):
             ww = omega**3 * d**2 / (3 * math.pi * sc.epsilon_0 * sc.hbar * sc.c**3)
@@ -145,7 +151,7 @@ def _hydrogen_matrix_element_in_bohr_radii():
 
 
 def test_hydrogen_lyman_alpha_rate_matches_nist():
-    # matrix element: Bethe & Salpeter (from memory) vs direct integration of the wavefunctions
+    # matrix element: Fitzpatrick sec. 12.11 (checked) vs direct integration of the wavefunctions
     m_closed = 128 * math.sqrt(2) / 243
     assert abs(_hydrogen_matrix_element_in_bohr_radii() / m_closed - 1) < 1e-10
     # nonrelativistic hydrogen with the reduced mass mu: hbar omega = (3/8) alpha^2 mu c^2,

@@ -4,7 +4,7 @@ CPML (convolutional perfectly matched layer; J. A. Roden and S. D. Gedney,
 "Convolution PML (CPML): an efficient FDTD implementation of the CFS-PML for
 arbitrary media", Microw. Opt. Technol. Lett. 27, 334 (2000); Taflove &
 Hagness, *Computational Electrodynamics*, 3rd ed., sec. 7.9-7.11; formulas
-from memory).  Each spatial derivative normal to the layer is replaced by
+from memory; Roden-Gedney reference checked).  Each derivative normal to the layer becomes
 
 .. math:: \partial_x \to \frac{1}{\kappa}\partial_x + \psi, \qquad
           \psi^{n} = b\,\psi^{n-1} + c\,\partial_x F,

@@ -8,7 +8,7 @@ checks them against the interior on closed ones.
 Charges (TE_z only): the charge-conserving scheme of T. Zh. Esirkepov,
 "Exact charge conservation scheme for Particle-in-Cell simulation with an
 arbitrary form-factor", Comput. Phys. Commun. 135, 144 (2001), eqs. (21)-(24)
-for 2D (from memory).  For a move from (X0, Y0) to (X1, Y1) within a step,
+for 2D (reference checked; eq. numbers from memory).  For a move (X0, Y0) -> (X1, Y1) in a step,
 with node shapes Sx0, Sx1, Sy0, Sy1,
 
     Wx = (Sx1 - Sx0) (Sy0 + Sy1) / 2,     Wy = (Sx0 + Sx1) (Sy1 - Sy0) / 2,

@@ -174,7 +174,7 @@ def boundary_diagonal(member, fill_neighbour_source, inv_h2, periodic, wall=None
     ``delta h`` with ``delta = 1/2 + f_nb`` (exact for a planar surface normal to that axis,
     from the dual-cell fractions), and Pekar's ``P = 0`` there enters through the ghost value
     ``-P (1 - delta)/delta``: the diagonal gets ``1/delta`` instead of 1 (symmetric,
-    F. Gibou et al., J. Comput. Phys. 176, 205 (2002), from memory).  A conducting-wall node
+    F. Gibou et al., J. Comput. Phys. 176, 205 (2002); checked).  A conducting-wall node
     (``wall``, bool (rows, cols)) is the surface itself: ``delta = 1``.  Beyond a closed edge
     the surface lies ``edge_delta[axis]`` cells away (1 for a component on integer nodes along
     that axis, whose wall is the wrapped node 0; 1/2 for one on half nodes).  With
