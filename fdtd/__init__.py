@@ -17,7 +17,7 @@ __all__ = [
     "ParameterError", "ShapeError", "StabilityError", "Everywhere", "HalfSpace", "Polygon",
     "Rectangle", "Slab", "Grid", "VACUUM", "DrudePole", "LorentzPole", "NonlocalLorentzPole", "Material",
     "lorentz_material", "Model", "Solver", "ContinuousWave", "GaussianPulse", "PrescribedCurrent",
-    "line_current", "UnitSystem", "load", "check", "run", "open_results", "as_arrays",
+    "line_current", "UnitSystem", "Scenario", "load", "check", "run", "open_results", "as_arrays",
 ]
 
 #: name -> module that defines it (imported on first access)
@@ -28,7 +28,7 @@ _LAZY = {
     "Model": "space.model", "Solver": "solver.stepper",
     "ContinuousWave": "sources.prescribed", "GaussianPulse": "sources.prescribed",
     "PrescribedCurrent": "sources.prescribed", "line_current": "sources.prescribed",
-    "UnitSystem": "units",
+    "UnitSystem": "units", "Scenario": "scenario.schema",
     # the scenario API pulls in pint, h5py and the experiment procedure
     "load": "api", "check": "api", "run": "api", "open_results": "api", "as_arrays": "api",
 }

@@ -18,8 +18,10 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+import scipy.constants as sc
+
+from fdtd.experiment.session import plan_points, run_scenario
 from fdtd.io.results import Results
-from fdtd.experiment.runner import PointRunner, plan, run_scenario
 from fdtd.scenario.schema import Scenario
 
 
@@ -71,28 +73,22 @@ def calibrate(polarization: str, poles: int) -> float:
 
 
 def check(scenario: Scenario) -> list[CheckReport]:
-    """Resolved grid, estimates and warnings for each scan point."""
+    """Resolved grid, estimates and warnings for each scan point (nothing is stepped)."""
+    from fdtd.experiment.procedure import Experiment
+
     reports = []
-    for pt in scenario.scan_points():
-        res = pt.resolve()
-        p = plan(res)
-        rep = CheckReport(warnings=list(p.warnings), notes=list(p.notes))
-        r = PointRunner(pt, progress=False)          # builds model and solver (no stepping)
-        s = r.solver
-        ell = res.ell
+    for pt, p in plan_points(scenario):
+        rep = CheckReport(warnings=list(p.warnings), notes=list(p.notes) + list(p.adjustments))
+        exp = Experiment(p, progress=False)          # builds model and solver
+        s = exp.solver
+        ell = p.ell
         cells = s.grid.n_cells
-        steps = r._record_steps()
-        if p.kind == "comoving":
-            ramp = int(math.ceil((p.ramp / math.sqrt(1 - p.speed**2) + p.speed_ramp) / s.dt))
-            settle_typ = 10 * r.steps_transit
-            settle_max = int(max(p.max_time / s.dt - ramp, 0))
-            steps_typ, steps_max = ramp + settle_typ + steps, ramp + settle_max + steps
-        else:
-            steps_typ = steps_max = steps
+        steps_typ, steps_max = exp.expected_steps(), exp.max_steps()
         arrays = sum(a.nbytes for a in s.fields.values()) + sum(P.nbytes + Po.nbytes for P, Po in
                                                                s.polarization.values())
-        rate = calibrate(p.polarization, r.model.max_poles) * (1.6 if s.threads > 1 else 1.0)
+        rate = calibrate(p.polarization, exp.model.max_poles) * (1.6 if s.threads > 1 else 1.0)
         t_typ, t_max = cells * steps_typ / rate, cells * steps_max / rate
+        to_rad_s = sc.c / ell
         rep.rows += [
             ("point", pt.where),
             ("run", f"{p.kind} cell" if p.kind == "comoving" else "open domain"),
@@ -101,10 +97,10 @@ def check(scenario: Scenario) -> list[CheckReport]:
             ("extent", f"{s.grid.extent[0] * ell * 1e6:.4g} um"
              + (f" x {s.grid.extent[1] * ell * 1e6:.4g} um" if s.grid.dims == 2 else "")
              + f", absorbing layers {p.absorber * ell * 1e9:.4g} nm"),
-            ("time step", f"{s.dt * ell / 2.998e8 * 1e18:.4g} as (Courant number {s.courant_number:.3f}, "
+            ("time step", f"{p.seconds(s.dt) * 1e18:.4g} as (Courant number {s.courant_number:.3f}, "
                           f"{s.dt / s.model.max_stable_dt():.0%} of the Yee + ADE limit)"),
             ("source", f"{p.source_kind}, v = {p.speed:.4g} c, height {p.height * ell * 1e9:.4g} nm"
-             + (f", rest frequency {p.omega0 * 2.998e8 / ell:.4g} rad/s (lab {p.Omega * 2.998e8 / ell:.4g})"
+             + (f", rest frequency {p.omega0 * to_rad_s:.4g} rad/s (lab {p.Omega * to_rad_s:.4g})"
                 if p.omega0 else "")),
             ("steps", f"about {steps_typ:,} (at most {steps_max:,})" if steps_typ != steps_max else f"{steps_typ:,}"),
             ("memory", f"{arrays / 2**20:.0f} MiB of field and polarization arrays"),
@@ -139,12 +135,12 @@ class RunOutput:
         return v["normalized"] if normalized else v["value"]
 
 
-def run(scenario, out=None, progress: bool | None = None, checkpoint=None, resume=None, log=None) -> RunOutput:
-    """Run a scenario (a Scenario or a path) and write the results file."""
-    sc = scenario if isinstance(scenario, Scenario) else load(scenario)
-    r = run_scenario(sc, out=out, progress=progress, checkpoint=checkpoint, resume=resume,
-                     log=log or (lambda msg: None))
-    return RunOutput(r["file"], r["status"], r["stop_reason"], r["points"])
+def run(scenario, out=None, progress: bool | None = None, checkpoint=None, resume=None) -> RunOutput:
+    """Run a scenario (a Scenario or a path) through the experiment procedure and write the
+    results file; diagnostics go to the ``fdtd`` logger."""
+    sc_ = scenario if isinstance(scenario, Scenario) else load(scenario)
+    r = run_scenario(sc_, out=out, progress=progress, checkpoint=checkpoint, resume=resume)
+    return RunOutput(r.file, r.status, r.stop_reason, r.points)
 
 
 def as_arrays(path, point: int | None = None) -> dict:

@@ -103,6 +103,22 @@ def build_parser() -> argparse.ArgumentParser:
     return p
 
 
+def _diagnostics(quiet: bool) -> None:
+    """Route the ``fdtd`` logger's messages (settling, scan points, warnings) to stderr."""
+    import logging
+
+    logger = logging.getLogger("fdtd")
+    for h in list(logger.handlers):
+        if getattr(h, "_gapwake_cli", False):
+            logger.removeHandler(h)
+    handler = logging.StreamHandler(sys.stderr)
+    handler.setFormatter(logging.Formatter("%(message)s"))
+    handler._gapwake_cli = True
+    logger.addHandler(handler)
+    logger.setLevel(logging.WARNING if quiet else logging.INFO)
+    logger.propagate = False
+
+
 def _overrides(scenario, pairs):
     import tomllib
 
@@ -138,7 +154,7 @@ def main(argv=None) -> int:
         parser.print_help()
         return 0
     if args.command == "threshold":
-        # analytic only: keep the solver, h5py and the runner out of this path
+        # analytic only: keep the solver, h5py and the experiment procedure out of this path
         return _threshold(args)
     from fdtd import api
     from fdtd.errors import GapwakeError, ParameterError
@@ -154,12 +170,12 @@ def main(argv=None) -> int:
             sc = _overrides(api.load(args.file), args.set)
             quiet = args.quiet or args.json
             progress = None if not quiet else False
-            log = (lambda m: None) if quiet else (lambda m: print(m, file=sys.stderr))
+            _diagnostics(quiet)
             with warnings.catch_warnings():
                 if quiet:
                     warnings.simplefilter("ignore")
                 out = api.run(sc, args.output, progress=progress, checkpoint=args.checkpoint,
-                              resume=args.resume, log=log)
+                              resume=args.resume)
             if args.json:
                 print(json.dumps({"file": out.file, "status": out.status, "stop_reason": out.stop_reason,
                                   "points": out.points}, indent=1, default=float))
@@ -255,8 +271,8 @@ def _demo(args) -> int:
     here.write_text((resources.files("fdtd") / "data" / "demo.toml").read_text())
     sc = api.load(here)
     print(f"running {here} (a dipole gliding above a lossy Lorentz half-space) ...")
-    res = api.run(sc, out / "demo.h5", progress=None if not args.quiet else False,
-                  log=(lambda m: None) if args.quiet else (lambda m: print(m, file=sys.stderr)))
+    _diagnostics(args.quiet)
+    res = api.run(sc, out / "demo.h5", progress=None if not args.quiet else False)
     _print_summary(res)
     figs = plot_all(res.file, out / "figures", ("png",))
     movie = animate(res.file, out / "demo.gif")

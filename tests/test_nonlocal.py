@@ -7,7 +7,7 @@ memory), with Pekar's additional boundary condition P = 0 at the surface (S. I. 
 Zh. Eksp. Teor. Fiz. 33, 1022 (1957) [Sov. Phys. JETP 6, 785]; reference checked with the
 search tool in a later paper's reference list).  The boundary-condition problem is reviewed in
 V. M. Agranovich and V. L. Ginzburg, Sov. Phys. Usp. 5, 675 (1963), sec. 3e (checked).
-The discrete relations used below are derived in DEVELOPERS.md ("Nonlocal pole").
+The discrete relations used below are derived in docs/theory/nonlocal-pole.md.
 """
 
 import warnings
@@ -32,7 +32,8 @@ _record = record_point
 
 def _discrete_roots(mat, K2, dt):
     """Roots z = exp(-i w dt) of the discrete transverse relation w~^2 eps_d(w, K) = K^2
-    for one pole whose a0 is raised by c_L K^2 (DEVELOPERS.md, "Nonlocal pole")."""
+    for one pole whose a0 is raised by c_L K^2 (docs/theory/nonlocal-pole.md, "Discrete
+    dispersion")."""
     (p,) = mat.poles
     a0, a1, b = p.ade_parameters()
     a0 = a0 + p.laplacian_coefficient() * K2
@@ -352,24 +353,28 @@ def test_scenario_files_build_nonlocal_poles(tmp_path, capsys):
 # ------------------------------------------------------------- moving source, 1D bulk
 
 
-def test_moving_dipole_sheet_in_nonlocal_bulk_matches_reference():
+def test_moving_dipole_sheet_in_nonlocal_bulk_matches_reference(tmp_path):
     """A dipole sheet moving at v = 0.5 through a uniform nonlocal Lorentz medium (periodic
-    1D cell): the Doppler-resolved powers equal the exact bulk reference, E = i w J /
-    (k^2 - w^2 eps(w, k)) with the sheet's own k, to 3 % (5 % per point; the anomalous
-    branch to 2 %); the local medium's anomalous branch differs by 26 %, so the check sees
-    beta_nl."""
+    1D cell), a scenario run through ``fdtd.run``: the Doppler-resolved powers equal the
+    exact bulk reference, E = i w J / (k^2 - w^2 eps(w, k)) with the sheet's own k, to 3 %
+    (5 % per point; the anomalous branch to 2 %); the local medium's anomalous branch
+    differs by 26 %, so the check sees beta_nl."""
+    from cases import lorentz, run, scenario
     from test_doppler_vs_reference import _compare
 
     from fdtd.reference.planar import Bulk1D
-    from fdtd.experiment.cell import dipole_sheet_in_bulk
     from fdtd.sources.shapes import Shape
 
     med = f.Material(1.0, (f.NonlocalLorentzPole(2.0, 1.0, 0.3, 0.25),), "nl")
     v, w0, L, d = 0.5, 0.6, 12.0, 0.1
     shape = Shape(3, 2)
-    # the m = -1 harmonic sits next to a weakly damped polariton and needs ~700 time units
-    # to settle (at t = 300 it was still 6 % off; DEVELOPERS.md, "Periodic cell pitfalls")
-    sim, _s = dipole_sheet_in_bulk(med, v, w0, L, d, shape=shape, ramp=40.0, start=700.0, transits=8)
+    sc = scenario({"nl": lorentz(1.0, (2.0, 1.0, 0.3, 0.25))}, {"background": "nl"},
+                  {"polarization": "1d", "cell": d, "length": L},
+                  {"kind": "dipole", "speed": v, "frequency": w0, "ramp_periods": 40.0 * w0 / (2 * np.pi)},
+                  run={"transits": 8})
+    out, res = run(sc, tmp_path)
+    assert out.value("steady") is True
+    sim = res.spectrum()
     ff = lambda k: shape.form_factor(k, d)  # noqa: E731
     per = Bulk1D(med, v, w0, form_factor=ff).periodic(L)
     total = sum(p.sum() for _k, p in per.values())

@@ -21,7 +21,8 @@ import pytest
 
 import fdtd
 from fdtd.cli import main
-from fdtd.experiment.runner import PointRunner
+from fdtd.experiment.procedure import Experiment
+from fdtd.scenario.plan import plan as make_plan
 
 ROOT = Path(__file__).resolve().parents[1]
 
@@ -210,23 +211,27 @@ def test_check_warns_on_coarse_grid_and_overlap(tmp_path, capsys):
 
 
 # ----------------------------------------------------------------------------- results file
-def _doc_table():
-    """(regex, si_units) rows of the dataset table in docs/results.md."""
-    rows = []
-    for line in (ROOT / "docs" / "results.md").read_text().splitlines():
-        m = re.match(r"\| `([a-z_<>/0-9A-Za-z]+)` \| [^|]+ \| ([^|]+) \|", line)
-        if m and "/" in m.group(1):
-            pat = re.escape(m.group(1))
-            pat = pat.replace("<k>", r"\d+").replace("<name>", r"[^/]+").replace("<component>", "[EH][xyz]")
-            units = {u.strip() for u in m.group(2).split(" or ")}
-            rows.append((re.compile(pat + "$"), units))
-    return rows
+def test_results_documentation_is_the_writers_layout():
+    """docs/results.md carries exactly the table the writer's own layout renders."""
+    from fdtd.io.results import layout_markdown
+
+    assert layout_markdown() in (ROOT / "docs" / "results.md").read_text()
 
 
 def test_results_layout_matches_documentation(tiny_run):
+    """Every dataset written is in the layout with the quantity's SI unit (a string pint
+    parses, of the right dimension), and the coordinates are attached as dimension scales."""
+    import pint
+    import scipy.constants as sc
+
+    from fdtd.io.results import layout_entry
+
+    ureg = pint.UnitRegistry()
+    dimension = {"length": "[length]", "time": "[time]", "wavenumber": "1/[length]",
+                 "angular_frequency": "1/[time]", "power": "[power]/[length]",
+                 "energy": "[energy]/[length]", "field": "[electric_field]", "magnetic_field": "[current]/[length]",
+                 "dimensionless": ""}
     _d, _p, h5, _out = tiny_run
-    rows = _doc_table()
-    assert len(rows) > 20
     seen = []
     with h5py.File(h5, "r") as f:
         assert f.attrs["format"] == "gapwake-results"
@@ -238,25 +243,30 @@ def test_results_layout_matches_documentation(tiny_run):
             if not isinstance(obj, h5py.Dataset):
                 return
             seen.append(name)
-            match = [u for rx, u in rows if rx.match(name)]
-            assert match, f"{name} is not documented in docs/results.md"
-            assert obj.attrs["si_units"] in match[0], (name, obj.attrs["si_units"], match[0])
-            for a in ("units", "si_units", "si_factor", "description"):
+            entry = layout_entry(name)          # raises for an undocumented dataset
+            for a in ("units", "si_factor", "normalized_unit", "description"):
                 assert a in obj.attrs, (name, a)
+            q = ureg.parse_expression(str(obj.attrs["units"]))
+            allowed = [dimension[x.strip()] for x in entry.quantity.split(" or ")]
+            assert any(q.check(dm) if dm else q.dimensionless for dm in allowed), (name, obj.attrs["units"])
         f.visititems(visit)
         for must in ("ledger/time", "ledger/stored", "ledger/source_work", "ledger/bath", "ledger/outflow",
                      "doppler/power", "reference/power_normal", "snapshots/Hz", "line/data",
                      "geometry/material_map"):
             assert must in seen, must
         # conversion factors agree with /units
-        assert f["snapshots/x"].attrs["si_factor"] == pytest.approx(units["length"])
-        assert f["ledger/time"].attrs["si_factor"] == pytest.approx(units["time"])
-        assert f["doppler/power"].attrs["si_factor"] == pytest.approx(units["power"])
+        assert f["snapshots/x"].attrs["si_factor"] == pytest.approx(units["length"], rel=1e-12)
+        assert f["ledger/time"].attrs["si_factor"] == pytest.approx(units["time"], rel=1e-12)
+        assert f["doppler/power"].attrs["si_factor"] == pytest.approx(units["power"], rel=1e-12)
         # H is stored in units of E0/Z0 (Z0 from scipy.constants)
-        import scipy.constants as sc
         z0 = sc.mu_0 * sc.c
         assert f["snapshots/Hz"].attrs["si_factor"] == pytest.approx(units["field"] / z0, rel=1e-9)
         assert np.all(np.diff(f["ledger/time"][:]) > 0)
+        # dimension scales
+        assert f["line/data"].dims[0][0] == f["line/time"] and f["line/data"].dims[1][0] == f["line/x"]
+        assert f["snapshots/Hz"].dims[0][0] == f["snapshots/time"]
+        assert f["snapshots/Hz"].dims[2][0] == f["snapshots/y"]
+        assert f["doppler/power"].dims[0][0] == f["doppler/kx"]
         summary = json.loads(f["summary"].attrs["json"])
     for key in ("total_power", "normal_power", "anomalous_power", "drag_force", "ledger_residual"):
         assert key in summary and "units" in summary[key]
@@ -407,11 +417,11 @@ def test_grid_cutoff_warnings_before_and_after_a_run(tmp_path, capsys):
 
 
 def test_failed_write_leaves_no_complete_file(tmp_path, monkeypatch):
-    import fdtd.experiment.runner as runner
+    import fdtd.experiment.session as session
 
     def broken(*a, **k):
         raise OSError("disk full (simulated)")
-    monkeypatch.setattr(runner, "write_point", broken)
+    monkeypatch.setattr(session, "write_point", broken)
     path = write(tmp_path, edit(TINY, "snapshots = 5", "snapshots = 0"))
     with pytest.raises(OSError):
         fdtd.run(path, tmp_path / "r.h5", progress=False)
@@ -459,7 +469,11 @@ def test_sigkill_leaves_no_complete_file(tmp_path):
     assert proc.returncode == -signal.SIGKILL
     assert not out.exists()
     for leftover in tmp_path.glob("killed.h5*"):
-        with h5py.File(leftover, "r") as f:
+        try:
+            f = h5py.File(leftover, "r")
+        except OSError:          # cut off mid-write: unreadable, so it cannot look complete
+            continue
+        with f:
             assert f.attrs["status"] != "complete"
 
 
@@ -487,7 +501,7 @@ def test_checkpoint_resume_is_bitwise_identical(tmp_path, capsys):
     whole = fdtd.run(path, tmp_path / "whole.h5", progress=False)
     sc = fdtd.load(path)
     ck = tmp_path / "state.ck.h5"
-    first = PointRunner(sc, progress=False, checkpoint=str(ck))
+    first = Experiment(make_plan(sc.resolve()), progress=False, checkpoint=str(ck))
     total = whole.value("steps")
     assert first.execute(stop_after_steps=int(total * 0.7)) == "stopped"
     assert ck.exists()

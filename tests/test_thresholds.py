@@ -8,7 +8,7 @@ Outside results used (beside each check):
 * Nonlocal (exciton-polariton) pole chi = delta_eps W^2/(W^2 + beta^2 k^2 - w^2):
   J. J. Hopfield and D. G. Thomas, Phys. Rev. 132, 563 (1963) (as cited in fdtd/materials.py).
 Everything else is compared with closed forms derived in the docstrings and in
-DEVELOPERS.md ("Speed thresholds"), or with the simulator itself.
+docs/theory/thresholds.md, or with the simulator itself.
 """
 
 import json
@@ -223,34 +223,41 @@ def test_discrete_branches_tend_to_continuum_at_second_order():
 
 
 # ----------------------------------------------------------------------------- (d) the simulator
-def _anomalous_power_scan(dx, n_cells, speeds, gamma, k_only=None):
+def _anomalous_power_scan(dx, n_cells, speeds, gamma, tmp_path, k_only=None):
     """1D periodic co-moving cell (as tests/test_doppler_vs_reference.py::
-    test_bulk_1d_dipole_sheet_matches_reference), linear shape; anomalous-branch power per speed
-    (only the points with |k_x| = k_only if given).  Returns (power (S,), dt (S,), model)."""
-    from fdtd.experiment.cell import dipole_sheet_in_bulk
-    from fdtd.sources.shapes import Shape
+    test_bulk_1d_dipole_sheet_matches_reference), linear shape, as a scenario with a speed
+    scan run through ``fdtd.run``; anomalous-branch power per speed (only the points with
+    |k_x| = k_only if given).  Returns (power (S,), dt (S,))."""
+    from cases import lorentz, scenario
 
-    med = f.Material(EINF, (f.LorentzPole(DE, W, gamma),), "lossy Lorentz")
-    L = n_cells * dx
-    model = f.Model(f.Grid((n_cells,), (dx,), "1d"), background=med, edges=f.Periodic())
-    settle = 6.0 / gamma                       # transients near the branch decay as exp(-gamma t/2)
-    out, dts = [], []
-    for v in speeds:
-        r, s = dipole_sheet_in_bulk(med, v, W0, L, dx, shape=Shape(1, 1), ramp=10.0, start=settle,
-                                    model=model)
+    import fdtd
+
+    sc = scenario({"lz": lorentz(EINF, (DE, W, gamma))}, {"background": "lz"},
+                  {"polarization": "1d", "cell": dx, "length": n_cells * dx},
+                  {"kind": "dipole", "speed": float(speeds[0]), "frequency": W0, "shape_order": 1,
+                   "shape_scale": 1, "ramp_periods": 10.0 * W0 / (2 * math.pi)},
+                  run={"transits": 2})
+    sc = fdtd.Scenario(dict(sc.raw, scan={"key": "source.speed", "values": [float(v) for v in speeds]}),
+                       where="speed scan")
+    out = fdtd.run(sc, tmp_path / f"scan_{n_cells}.h5", progress=False)
+    power, dts = [], []
+    for k in range(len(speeds)):
+        with fdtd.open_results(out.file, k) as res:
+            assert res.plan["nx"] == n_cells              # the cell is the one asked for
+            r = res.spectrum()
+            dts.append(res.attrs("grid")["dt"])
         sel = r.branch == -1
         if k_only is not None:
             sel &= np.isclose(np.abs(r.kx), k_only)
-        out.append(r.power[sel].sum())
-        dts.append(s.dt)
-    return np.array(out), np.array(dts), model
+        power.append(r.power[sel].sum())
+    return np.array(power), np.array(dts)
 
 
 @pytest.mark.parametrize("dx, n_cells, speeds", [
     (0.5, 60, np.arange(0.17, 0.2701, 0.02)),            # k <= pi/dx = 6.28: predicted v_min 0.243
     (30 / 85, 85, np.arange(0.12, 0.2201, 0.02)),       # odd cell count: k_m <= 8.80, v_min 0.178
 ])
-def test_speed_scan_switches_the_anomalous_branch_on_at_the_grid_threshold(dx, n_cells, speeds):
+def test_speed_scan_switches_the_anomalous_branch_on_at_the_grid_threshold(dx, n_cells, speeds, tmp_path):
     """Issue 6: a speed scan in the 1D bulk case switches the anomalous branch on within one scan
     step of the predicted v_min, for two grids with different cutoffs.
 
@@ -269,7 +276,7 @@ def test_speed_scan_switches_the_anomalous_branch_on_at_the_grid_threshold(dx, n
     at least twice every other ratio of the scan.
     """
     dv = float(speeds[1] - speeds[0])
-    power, dts, model = _anomalous_power_scan(dx, n_cells, speeds, 0.05)
+    power, dts = _anomalous_power_scan(dx, n_cells, speeds, 0.05, tmp_path)
     L = n_cells * dx
     ratio = power[1:] / power[:-1]
     i = int(np.argmax(ratio))
@@ -294,7 +301,7 @@ def test_speed_scan_switches_the_anomalous_branch_on_at_the_grid_threshold(dx, n
 
 
 @pytest.mark.parametrize("dx, n_cells", [(0.5, 60), (30 / 85, 85)])
-def test_cutoff_harmonic_resonates_at_the_discrete_not_the_continuum_speed(dx, n_cells):
+def test_cutoff_harmonic_resonates_at_the_discrete_not_the_continuum_speed(dx, n_cells, tmp_path):
     """The anomalous power on the largest harmonic k_M of the cell peaks (small loss) where the
     anomalous line crosses the lossless branch at k_M: with the scheme's discrete dispersion, not
     with the continuum one at the same k (faster by 1.5e-3 c and 4.4e-3 c on these grids).  The
@@ -307,7 +314,7 @@ def test_cutoff_harmonic_resonates_at_the_discrete_not_the_continuum_speed(dx, n
     v_cont = float(T.anomalous_speed(k_M, T.mode_frequencies(LZ, k_M)[0], W0))
     assert v_cont - v_disc > 0.001
     speeds = v_disc + 0.001 * np.arange(-3, 4) + 0.0003       # grid not centred on the prediction
-    power, _dts, _m = _anomalous_power_scan(dx, n_cells, speeds, 0.05, k_only=k_M)
+    power, _dts = _anomalous_power_scan(dx, n_cells, speeds, 0.05, tmp_path, k_only=k_M)
     j = int(np.argmax(power))
     assert 0 < j < speeds.size - 1
     c = np.polyfit(speeds[j - 1:j + 2], np.log(power[j - 1:j + 2]), 2)

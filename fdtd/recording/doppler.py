@@ -136,7 +136,27 @@ class DopplerSpectrum:
         return self.source_work_rate - self.total
 
 
-class DopplerWorkRecorder:
+class _Checkpointable:
+    """Recorders whose accumulators a checkpoint saves and a resumed run restores bit for bit.
+
+    ``_STATE`` names the attributes (arrays, numbers or None); checkpoints are taken
+    between steps, so per-step scratch values are not part of it."""
+
+    _STATE: tuple = ()
+
+    def checkpoint_state(self) -> dict:
+        return {name: getattr(self, name) for name in self._STATE}
+
+    def restore_state(self, state: dict) -> None:
+        for name in self._STATE:
+            cur, new = getattr(self, name), state[name]
+            if isinstance(cur, np.ndarray) and new is not None and np.shape(new) == cur.shape:
+                cur[...] = new
+            else:
+                setattr(self, name, new)
+
+
+class DopplerWorkRecorder(_Checkpointable):
     """Record the Doppler-resolved work of one moving source (periodic-x cell).
 
     Parameters
@@ -167,6 +187,9 @@ class DopplerWorkRecorder:
         which never reach the absorbing layers) falls as ``1/T^3`` instead of
         ``1/T``.  Without it, a flat window up to the last recorded step.
     """
+
+    _STATE = ("A", "B", "wsum", "n_samples", "weight_sum", "t_first", "t_last", "work0", "work_last",
+              "weighted_work", "weighted_time")
 
     def __init__(self, solver, source, speed: float, internal_frequency: float = 0.0,
                  rows=None, m_max: int | None = None, start: float = 0.0,
@@ -233,6 +256,7 @@ class DopplerWorkRecorder:
         self.t_first = None
         self.t_last = None
         self.work0 = None
+        self.work_last = None
         self._e0 = None
         self._work_prev = None
         self.weighted_work = 0.0
@@ -363,7 +387,7 @@ def _taper_weights(t: float, start: float, duration: float | None) -> np.ndarray
                      math.sin(2 * math.pi * x) ** 2 if x >= 0.5 else 0.0])
 
 
-class DopplerFluxRecorder:
+class DopplerFluxRecorder(_Checkpointable):
     """Doppler-resolved Poynting flux through horizontal grid lines of a periodic-x cell.
 
     For each storage row ``jb`` of the tangential E component, the exact
@@ -375,6 +399,8 @@ class DopplerFluxRecorder:
     is split over the Doppler points (k_m, omega = k_m v + s Omega) by the same
     demodulation as :class:`DopplerWorkRecorder`.  Positive = upward (+y).
     """
+
+    _STATE = ("_A5", "_B5", "wsum")
 
     def __init__(self, solver, speed: float, internal_frequency: float, rows, start: float = 0.0,
                  duration: float | None = None, m_max: int | None = None, every: int = 1):
@@ -475,209 +501,25 @@ class DopplerFluxRecorder:
         return out
 
 
-class SteadyStateWarning(UserWarning):
-    """A run did not settle to the requested tolerance within the allowed time."""
+def auto_sampling(dt: float, cell: float, speed: float, internal_frequency: float, k_top: float,
+                  max_alias_order: int = 3, margin: float = 0.15) -> int:
+    """Sampling interval (in steps) for the Doppler recorders.
 
-
-def run_until_steady(solver, period: float, tol: float = 2e-3, max_time: float = 1e4,
-                     min_blocks: int = 3):
-    """Advance until the dissipated power settles; return (steady, block_rates).
-
-    The run advances in blocks of ``period`` (a transit time L/v or a multiple
-    of it).  In each block the Hann-weighted mean of the power that leaves the
-    field for good, outflow into the absorbing layers plus heat into the bath
-    (from the energy ledger), is formed: unlike the source's work it has almost
-    no share of the large reactive near-field exchange at 2 Omega.  Steady =
-    the last ``min_blocks`` rates agree with their mean within ``tol``
-    (relative) -- precisely, the means of the last two groups of ``min_blocks``
-    blocks agree within ``tol``.  If ``max_time`` passes first, a
-    :class:`SteadyStateWarning` says what to change, and the results recorded
-    afterwards are partial.
+    At most 80 % of the Nyquist limit of the highest recorded line
+    ``k_top v + Omega``, and such that the deposit's grid-crossing aliases, at
+    ``2 pi p v / dx`` from each line, do not fold back onto the lines: the
+    sampling frequency must not divide them, i.e. ``p k v dt / dx`` stays at
+    least ``margin`` away from whole numbers for p = 1..max_alias_order.
     """
-    period = _positive("period", period)
-    if solver.ledger is None:
-        raise ParameterError("run_until_steady needs the energy ledger (Solver(..., ledger=True))")
-    led = solver.ledger
-    rates = []
-
-    def dissipated():
-        return led.outflow + float(solver.bath_rows.sum()) * solver.model.grid.cell_volume / (4 * solver.dt)
-
-    while True:
-        steps = max(int(round(period / solver.dt)), 1)
-        ws = np.empty(steps)
-        prev = dissipated()
-        for n in range(steps):
-            solver.step()
-            now = dissipated()
-            ws[n] = now - prev
-            prev = now
-        x = (np.arange(steps) + 0.5) / steps
-        w = np.sin(np.pi * x) ** 2
-        rates.append(float(np.sum(w * ws) / (np.sum(w) * solver.dt)))
-        if len(rates) >= 2 * min_blocks:
-            # means of the last two groups of blocks: tolerates a periodic beat of up to
-            # min_blocks blocks (a slow exchange with a weakly damped free wave)
-            a = float(np.mean(rates[-2 * min_blocks:-min_blocks]))
-            b = float(np.mean(rates[-min_blocks:]))
-            if abs(a - b) <= tol * max(abs(a), abs(b), 1e-300):
-                return True, rates
-        if solver.time >= max_time:
-            import warnings
-
-            last = np.array(rates[-min_blocks:])
-            spread = float(np.max(np.abs(last - last.mean())) / max(abs(last.mean()), 1e-300))
-            warnings.warn(
-                f"the dissipated power did not settle to tol = {tol:g} by t = {solver.time:.6g} "
-                f"(spread of the last {min_blocks} blocks {spread:.2e}): allow more time (max_time), "
-                "add loss, or accept a larger tol; results recorded from here are partial",
-                SteadyStateWarning, stacklevel=2)
-            return False, rates
-
-
-def _positive(name, value):
-    if not (value > 0 and math.isfinite(value)):
-        raise ParameterError(f"{name} = {value!r} is not allowed: expected a finite number > 0")
-    return float(value)
-
-
-class PassageWorkRecorder:
-    """Doppler-resolved work of a uniformly moving source in an open (non-periodic) domain.
-
-    In a steady state of uniform motion the time-averaged work rate is
-    ``(v / dx) <E_col>``, with E_col the work done on the nodes of one grid
-    column while the source passes it, averaged over columns.  The average
-    must run over columns whose passage times span several periods of the
-    internal oscillation: a single column is passed in a fraction of a period,
-    and the dipole's large reactive exchange with its near field (at 2 Omega)
-    cancels only between columns.  The recorder therefore takes every column
-    of the span [x_start, x_stop] with a Hann weight across the span.
-
-    For each column it keeps E-bar and the source's complex branch current J+
-    (the exp(-i omega0 tau) part, :meth:`MovingDipole.branch_currents`) on the
-    rows of the path, over +-``half_window`` (length) around the passage, and
-    splits E_col over lab frequency by Parseval in time:
-
-        E_col = -2 dV dt Re sum_t J+ . Ebar = -(2 dV dt / N) Re sum_q Jhat+(q) conj(Ebar_hat(q)).
-
-    For a dipole q > 0 is the normal branch (k_x = (omega - Omega)/v), q < 0 the
-    anomalous one (at |omega|, k_x = (|omega| + Omega)/v); for a charge the
-    current is real (J+ is J itself, the formula's factor 2 is undone) and the
-    negative frequencies are folded onto the positive ones.  The frequency
-    resolution is 2 pi v / (2 half_window).
-    """
-
-    def __init__(self, solver, source, speed: float, internal_frequency: float, x_start: float,
-                 x_stop: float, half_window: float, rows=None, t_pass0: float = 0.0):
-        g = solver.model.grid
-        if g.dims != 2:
-            raise ParameterError("PassageWorkRecorder is for 2D grids")
-        self.solver = solver
-        self.source = source
-        self.speed = _positive("speed", speed)
-        self.Omega = float(internal_frequency)
-        self.half_window = _positive("half_window", half_window)
-        comp0 = g.e_components[0]
-        ia = g.index_of(comp0, (x_start, 0.0))[0]
-        ib = g.index_of(comp0, (x_stop, 0.0))[0]
-        if not (0 <= ia < ib < g.shape[0]):
-            raise GeometryError(
-                f"passage span x = [{x_start!r}, {x_stop!r}] does not fit inside the grid "
-                f"[{g.origin[0]:.6g}, {g.origin[0] + g.extent[0]:.6g}] with x_start < x_stop")
-        if self.Omega > 0:
-            span_t = (ib - ia) * g.spacing[0] / self.speed
-            if span_t < 2 * math.pi / self.Omega:
-                raise ParameterError(
-                    f"passage span of {x_stop - x_start:.6g} is passed in {span_t:.6g}, less than one "
-                    f"internal period 2 pi/Omega = {2 * math.pi / self.Omega:.6g}: widen the span")
-        self.cols = list(range(ia, ib + 1))
-        x = (np.arange(len(self.cols)) + 0.5) / len(self.cols)
-        self.col_weights = np.sin(np.pi * x) ** 2
-        if rows is None:
-            Y = source.cell_position(0.0)[1]
-            hs = source.shape.half_support
-            rows = np.arange(int(math.floor(Y - hs)) - 1, int(math.ceil(Y + hs)) + 2)
-        self.rows = np.asarray(rows, dtype=np.int64)
-        self._row_pos = np.full(g.shape[1], -1, dtype=np.int64)
-        self._row_pos[self.rows] = np.arange(self.rows.size)
-        self.comps = g.e_components
-        x0 = source.worldline.position(t_pass0)[0]
-        xc = g.axis_coordinates(comp0, 0)
-        self.t_pass = np.array([t_pass0 + (xc[c] - x0) / self.speed for c in self.cols])
-        tw = self.half_window / self.speed
-        self.n_win = int(round(2 * tw / solver.dt))
-        self.J = np.zeros((len(self.cols), self.n_win, len(self.comps), self.rows.size), dtype=complex)
-        self.E = np.zeros((len(self.cols), self.n_win, len(self.comps), self.rows.size))
-        self.first_step = np.array([int(math.ceil((tp - tw) / solver.dt - 0.5)) for tp in self.t_pass])
-        self.filled = np.zeros(len(self.cols), dtype=int)
-        self._e0 = None
-        solver.observers.append(self)
-
-    def _active(self, n):
-        k = n - self.first_step
-        return np.nonzero((k >= 0) & (k < self.n_win))[0]
-
-    def before_step(self, solver) -> None:
-        act = self._active(solver.step_count)
-        if act.size == 0:
-            self._e0 = None
-            return
-        cols = np.array(self.cols)[act]
-        self._e0 = (act, np.stack([solver.fields[k][cols][:, self.rows] for k in self.comps], axis=1))
-
-    def after_step(self, solver, injections) -> None:
-        if self._e0 is None:
-            return
-        act, e0 = self._e0
-        n = solver.step_count - 1
-        t = (n + 0.5) * solver.dt
-        cols = np.array(self.cols)[act]
-        e1 = np.stack([solver.fields[k][cols][:, self.rows] for k in self.comps], axis=1)
-        slot = n - self.first_step[act]
-        self.E[act, slot] = 0.5 * (e0 + e1)
-        ny = solver.model.grid.shape[1]
-        col_pos = {c: a for a, c in zip(act, cols)}
-        for comp, flat, vals in self.source.branch_currents(t):
-            ci = self.comps.index(comp)
-            ii, jj = np.divmod(flat, ny)
-            for i_node, j_node, val in zip(ii, jj, vals):
-                a = col_pos.get(int(i_node))
-                r = self._row_pos[j_node]
-                if a is not None and r >= 0:
-                    self.J[a, n - self.first_step[a], ci, r] += val
-        self.filled[act] += 1
-
-    def result(self) -> DopplerSpectrum:
-        """Spectrum (work rate per frequency bin, positive omega), Hann-averaged over the span."""
-        if not np.all(self.filled == self.n_win):
-            raise ParameterError(
-                f"PassageWorkRecorder: {int(np.sum(self.filled < self.n_win))} of {len(self.cols)} "
-                "columns were not passed completely: run longer (or shrink half_window)")
-        dt = self.solver.dt
-        dV = self.solver.model.grid.cell_volume
-        dx = self.solver.model.grid.spacing[0]
-        N = self.n_win
-        w = 2 * np.pi * np.fft.fftfreq(N, dt)
-        Jh = np.fft.ifft(self.J, axis=1) * N          # exp(+i omega t) convention
-        Eh = np.fft.ifft(self.E, axis=1) * N
-        per_col = -(2 * dV * dt / N) * np.real(np.sum(Jh * np.conj(Eh), axis=(2, 3)))   # (cols, q)
-        if self.Omega == 0.0:
-            per_col = per_col / 2.0                    # J+ = J for a charge: undo the factor 2
-        spec = (self.col_weights[:, None] * per_col).sum(axis=0) / self.col_weights.sum()
-        spec = spec * self.speed / dx
-        if self.Omega == 0.0:
-            # a real current: the negative-frequency half mirrors the positive one
-            pos = w > 0
-            kx, om, br = w[pos] / self.speed, w[pos], np.zeros(pos.sum(), dtype=int)
-            pw = 2.0 * spec[pos]
-        else:
-            keep = w != 0
-            w, spec = w[keep], spec[keep]
-            br = np.where(w > 0, 1, -1)
-            om = np.abs(w)
-            kx = np.where(w > 0, (w - self.Omega) / self.speed, (om + self.Omega) / self.speed)
-            pw = spec
-        order = np.lexsort((kx, br))
-        return DopplerSpectrum(kx[order], om[order], br[order], pw[order],
-                               2 * self.half_window / self.speed, float("nan"), self.speed, self.Omega,
-                               {"columns": len(self.cols)})
+    k_nyq = max(int(0.8 * math.pi / ((k_top * speed + internal_frequency) * dt)), 1)
+    c = speed * dt / cell
+    for k in range(k_nyq, 0, -1):
+        ok = True
+        for p in range(1, max_alias_order + 1):
+            x = p * k * c
+            if abs(x - round(x)) < margin:
+                ok = False
+                break
+        if ok:
+            return k
+    return 1

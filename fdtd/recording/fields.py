@@ -113,14 +113,21 @@ def _window(start, stop) -> tuple[float, float]:
     return start, stop
 
 
-def _open_h5(path, recorder: str, description: str, solver) -> tuple[Path, h5py.File]:
-    """Create (overwrite) an HDF5 file with the attributes every recorder file carries."""
-    path = Path(path)
-    try:
-        f = h5py.File(path, "w")
-    except OSError as exc:
-        raise ParameterError(f"path = {str(path)!r}: cannot create the HDF5 file ({exc}); "
-                             "give a path in an existing, writable directory") from None
+def _open_h5(path, recorder: str, description: str, solver) -> tuple[Path | None, h5py.Group]:
+    """Create (overwrite) an HDF5 file -- or take an open group of one, such as a point of a
+    results file being written -- with the attributes every recorder record carries.
+
+    Returns (path or None for a group, the group to write into)."""
+    if isinstance(path, h5py.Group):
+        f = path
+        path = None
+    else:
+        path = Path(path)
+        try:
+            f = h5py.File(path, "w")
+        except OSError as exc:
+            raise ParameterError(f"path = {str(path)!r}: cannot create the HDF5 file ({exc}); "
+                                 "give a path in an existing, writable directory") from None
     g = solver.model.grid
     f.attrs["units"] = "normalized"
     f.attrs["description"] = description
@@ -131,6 +138,10 @@ def _open_h5(path, recorder: str, description: str, solver) -> tuple[Path, h5py.
     f.attrs["grid_origin"] = np.asarray(g.origin, dtype=float)
     f.attrs["dt"] = solver.dt
     return path, f
+
+
+def _is_group_sink(path) -> bool:
+    return isinstance(path, h5py.Group)
 
 
 class _Series:
@@ -176,6 +187,19 @@ class _Series:
         """All samples so far, shape (count, *sample_shape) (memory mode only)."""
         return np.concatenate(self._blocks + [self._buf[: self._fill]], axis=0)
 
+    def restore(self, samples: np.ndarray) -> None:
+        """Start again from ``samples`` (count, *sample_shape): a resumed run."""
+        samples = np.asarray(samples, dtype=float).reshape((-1,) + self.sample_shape)
+        self._fill = 0
+        self._blocks = []
+        self.count = samples.shape[0]
+        if self.dataset is None:
+            if samples.shape[0]:
+                self._blocks.append(samples.copy())
+            return
+        self.dataset.resize(samples.shape[0], axis=0)
+        self.dataset[...] = samples
+
 
 class _Observer:
     """Common machinery: time levels of the hooks, lazy first sample, detaching.
@@ -202,6 +226,19 @@ class _Observer:
 
     def _attach(self) -> None:
         self.solver.observers.append(self)
+
+    # -- checkpoints ------------------------------------------------------
+    _STATE = ("_n_begin", "_primed", "_level_after")
+
+    def checkpoint_state(self) -> dict:
+        """Everything needed to continue bit for bit: scalars and arrays by name."""
+        return {name: getattr(self, name) for name in self._STATE}
+
+    def restore_state(self, state: dict) -> None:
+        """Continue from :meth:`checkpoint_state` of a recorder built with the same arguments."""
+        for name in self._STATE:
+            cur = getattr(self, name)
+            setattr(self, name, type(cur)(state[name]) if not isinstance(cur, np.ndarray) else state[name])
 
     # -- observer hooks ---------------------------------------------------
     def before_step(self, solver) -> None:
@@ -457,7 +494,7 @@ class FieldLineRecorder(_Observer):
             cd = f.create_dataset(f"coord_{c}", data=self.coordinates[c])
             cd.attrs["units"] = "normalized"
             cd.attrs["description"] = f"position of {c} along {self.axis} at each point of the line"
-        f.flush()
+        f.file.flush()
         self._file = f
 
     # -- recording ----------------------------------------------------------
@@ -485,7 +522,7 @@ class FieldLineRecorder(_Observer):
             if self._kind[c] in takes:
                 wrote |= self._series[c].append(fields[c][self._index[c]])
         if wrote:
-            self._file.flush()
+            self._file.file.flush()
 
     # -- accessors ----------------------------------------------------------
     def _spill_all(self) -> None:
@@ -493,14 +530,14 @@ class FieldLineRecorder(_Observer):
         for s in list(self._series.values()) + list(self._time_series.values()):
             wrote |= s.spill()
         if wrote and self._file is not None:
-            self._file.flush()
+            self._file.file.flush()
 
     def _read(self, name: str, series: _Series) -> np.ndarray:
-        if self.path is None:
-            return series.array()
         if self._file is not None:
             self._spill_all()
             return self._file[name][...]
+        if self.path is None:
+            return series.array()
         with h5py.File(self.path, "r") as f:
             return f[name][...]
 
@@ -521,15 +558,39 @@ class FieldLineRecorder(_Observer):
         """Number of samples of ``component`` so far."""
         return self._series[self._check_component(component)].count
 
+    _STATE = _Observer._STATE + ("truncated", "_bytes")
+
+    def checkpoint_state(self) -> dict:
+        state = super().checkpoint_state()
+        for k in self.kinds:
+            state[f"time_{k}"] = self._read(f"time_{k}", self._time_series[k])
+        for c in self.components:
+            state[f"data_{c}"] = self.data(c)
+        return state
+
+    def restore_state(self, state: dict) -> None:
+        super().restore_state(state)
+        for k in self.kinds:
+            self._time_series[k].restore(state[f"time_{k}"])
+        for c in self.components:
+            self._series[c].restore(state[f"data_{c}"])
+        if self._file is not None:
+            self._file.file.flush()
+
     def close(self) -> None:
-        """Stop recording, write what is buffered, close the file, detach (idempotent)."""
+        """Stop recording, write what is buffered, close the file, detach (idempotent).
+
+        A group of an open file (a results file being written) is flushed, not closed."""
         if self.closed:
             return
         self._detach()
         if self._file is not None:
             self._spill_all()
             self._file.attrs["truncated"] = self.truncated
-            self._file.close()
+            if self.path is None:
+                self._file.file.flush()
+            else:
+                self._file.close()
             self._file = None
 
 
@@ -619,7 +680,7 @@ class SnapshotRecorder(_Observer):
                 cd = f.create_dataset(f"coord_{c}_{_AXES[a]}", data=g.axis_coordinates(c, a))
                 cd.attrs["units"] = "normalized"
                 cd.attrs["description"] = f"position of {c} along {_AXES[a]} per storage index"
-        f.flush()
+        f.file.flush()
         self._file = f
 
     def _observe(self, n: int) -> None:
@@ -647,7 +708,7 @@ class SnapshotRecorder(_Observer):
                     d.resize(d.shape[0] + 1, axis=0)
                     d[-1] = t
         if wrote:
-            self._file.flush()
+            self._file.file.flush()
 
     @property
     def times_taken(self) -> dict[str, np.ndarray]:
@@ -661,20 +722,52 @@ class SnapshotRecorder(_Observer):
         the last of them.  Read back from the file when streamed.
         """
         c = self._check_component(component)
-        if self.path is None:
-            return np.array(self._shots[c]).reshape((-1,) + self.grid.shape)
         if self._file is not None:
             return self._file[c][...]
+        if self.path is None:
+            return np.array(self._shots[c]).reshape((-1,) + self.grid.shape)
         with h5py.File(self.path, "r") as f:
             return f[c][...]
 
+    def checkpoint_state(self) -> dict:
+        state = super().checkpoint_state()
+        for k in self.kinds:
+            state[f"next_{k}"] = self._next[k]
+            state[f"times_{k}"] = np.asarray(self._times[k], dtype=float)
+        for c in self.components:
+            state[f"data_{c}"] = self.snapshots(c)
+        return state
+
+    def restore_state(self, state: dict) -> None:
+        super().restore_state(state)
+        for k in self.kinds:
+            self._next[k] = int(state[f"next_{k}"])
+            self._times[k] = [float(x) for x in np.asarray(state[f"times_{k}"])]
+            if self._file is not None:
+                d = self._file[f"time_{k}"]
+                d.resize(len(self._times[k]), axis=0)
+                d[...] = self._times[k]
+        for c in self.components:
+            shots = np.asarray(state[f"data_{c}"], dtype=float).reshape((-1,) + self.grid.shape)
+            if self._file is None:
+                self._shots[c] = [s.copy() for s in shots]
+            else:
+                d = self._file[c]
+                d.resize(shots.shape[0], axis=0)
+                d[...] = shots
+        if self._file is not None:
+            self._file.file.flush()
+
     def close(self) -> None:
-        """Stop, close the file (if any), detach from the solver (idempotent)."""
+        """Stop, close the file (if any; a group of an open file is flushed), detach (idempotent)."""
         if self.closed:
             return
         self._detach()
         if self._file is not None:
-            self._file.close()
+            if self.path is None:
+                self._file.file.flush()
+            else:
+                self._file.close()
             self._file = None
 
 

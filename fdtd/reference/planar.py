@@ -553,7 +553,9 @@ class PlanarReference:
 
         def D(k):
             k = np.atleast_1d(np.asarray(k, dtype=float))
-            Yu, Yd, _ = admittances(lossless, pol, k, self.omega_of(k, branch), h)
+            # the search steps onto poles of the admittances themselves: only signs matter
+            with np.errstate(divide="ignore", invalid="ignore"):
+                Yu, Yd, _ = admittances(lossless, pol, k, self.omega_of(k, branch), h)
             return Yu - Yd
 
         Dv = D(kk)

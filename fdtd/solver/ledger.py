@@ -13,7 +13,7 @@ satisfies exactly (to round-off), for every step,
   (tallied inside the kernels);
 * outflow ``F = dt sum_boundary Ebar x H^{n+1/2}``, the discrete Poynting
   flux across the faces of the box, from summation by parts of the curl
-  operators (derivation in DEVELOPERS.md, "Energy ledger").
+  operators (derivation in docs/theory/energy-ledger.md).
 
 Outflow into the absorbing layers is what the layers absorb once the field
 has died down there.  The residual
@@ -172,10 +172,10 @@ class EnergyLedger:
                               t["gid"], s.dt, r[0], r[1], r[2], r[3], wp)
             we += a
             wx += b
-            for slot, mixn, _rows, _Q, _Pold, diag in getattr(s, "_nonlocal", {}).get(c, ()):
+            for slot, mixn, _rows, _Q, _Pold, diag in s.nonlocal_entries.get(c, ()):
                 # gradient energy of a nonlocal pole (kernels/nonlocal_pole.py)
-                nlk.gradient_energy(P, Po, slot, mixn, t["nlg"], t["kappa"], diag, s._nl_inv_h2,
-                                    s._nl_periodic, self.tally_box(c), wp)
+                nlk.gradient_energy(P, Po, slot, mixn, t["nlg"], t["kappa"], diag, s.nonlocal_inv_h2,
+                                    s.nonlocal_periodic, self.tally_box(c), wp)
         f = s.fields
         if g.polarization == "1d":
             q = self.ranges["Hz"][0]

@@ -29,7 +29,7 @@ from fdtd.solver.kernels.yee_te import step_te
 from fdtd.solver.kernels.yee_tm import step_tm
 from fdtd.solver.ledger import EnergyLedger
 from fdtd.space.model import Model
-from fdtd.experiment.progress import Progress
+from fdtd._progress import progress_bar
 from fdtd.sources.prescribed import Source
 from fdtd.space.stability import courant_number
 
@@ -187,17 +187,17 @@ class Solver:
         """Work arrays of the nonlocal poles: per E component, the slots that hold
         one, the row range they occupy, and Q / P^{n-1} buffers (rows, cols)."""
         g = self.grid
-        self._nonlocal: dict[str, list] = {}
+        self.nonlocal_entries: dict[str, list] = {}
         self.nonlocal_outflow = 0.0
         nlg = self.tables["nlg"]
         if not (nlg >= 0).any():
             return
         if g.dims == 1:
-            self._nl_inv_h2 = (0.0, 1.0 / g.spacing[0] ** 2)
-            self._nl_periodic = (True, bool(self.model.periodic[0]))
+            self.nonlocal_inv_h2 = (0.0, 1.0 / g.spacing[0] ** 2)
+            self.nonlocal_periodic = (True, bool(self.model.periodic[0]))
         else:
-            self._nl_inv_h2 = (1.0 / g.spacing[0] ** 2, 1.0 / g.spacing[1] ** 2)
-            self._nl_periodic = (bool(self.model.periodic[0]), bool(self.model.periodic[1]))
+            self.nonlocal_inv_h2 = (1.0 / g.spacing[0] ** 2, 1.0 / g.spacing[1] ** 2)
+            self.nonlocal_periodic = (bool(self.model.periodic[0]), bool(self.model.periodic[1]))
         fractions = self.model.material_fraction_table()
         for c in g.e_components:
             mix2 = self.model.mix_maps[c].reshape(1, -1) if g.dims == 1 else self.model.mix_maps[c]
@@ -218,31 +218,31 @@ class Solver:
                     tuple(1.0 if o == 0.0 else 0.5 for o in offs)
                 for gid in np.unique(groups[groups >= 0]):
                     fill = fractions[mix2, self.model.pole_material(int(gid))]
-                    diag += nlk.boundary_diagonal(groups == gid, fill, self._nl_inv_h2,
-                                                  self._nl_periodic, wall, edge)
+                    diag += nlk.boundary_diagonal(groups == gid, fill, self.nonlocal_inv_h2,
+                                                  self.nonlocal_periodic, wall, edge)
                 entries.append((s, mix2, rows, np.zeros(mix2.shape), np.zeros(mix2.shape), diag))
             if entries:
-                self._nonlocal[c] = entries
+                self.nonlocal_entries[c] = entries
 
     def _nonlocal_prepass(self) -> None:
         t = self.tables
-        for c, entries in self._nonlocal.items():
+        for c, entries in self.nonlocal_entries.items():
             P, Po = self.polarization[c]
             for s, mix2, rows, Q, Pold, diag in entries:
-                nlk.prepass(P, Po, s, mix2, t["nlg"], t["c4"], diag, self._nl_inv_h2,
-                            self._nl_periodic, rows, Q, Pold)
+                nlk.prepass(P, Po, s, mix2, t["nlg"], t["c4"], diag, self.nonlocal_inv_h2,
+                            self.nonlocal_periodic, rows, Q, Pold)
 
     def _nonlocal_postpass(self) -> None:
         t = self.tables
         g = self.grid
         out = 0.0
-        for c, entries in self._nonlocal.items():
+        for c, entries in self.nonlocal_entries.items():
             P, Po = self.polarization[c]
             E2 = self.fields[c].reshape(1, -1) if g.dims == 1 else self.fields[c]
             for s, mix2, rows, Q, Pold, _diag in entries:
                 out += nlk.postpass(P, Po, E2, s, mix2, t["nlg"], t["inv_eps"], Q, Pold, rows,
                                     self._tally, self._tally_boxes[c], self._bathc_all, self._gid,
-                                    self.bath_rows, t["kappa"], self._nl_inv_h2, self._nl_periodic)
+                                    self.bath_rows, t["kappa"], self.nonlocal_inv_h2, self.nonlocal_periodic)
         if self.ledger is not None:
             self.ledger.outflow += out * g.cell_volume
         self.nonlocal_outflow += out * g.cell_volume
@@ -274,10 +274,10 @@ class Solver:
 
     # ------------------------------------------------------------------
     def _kernel(self) -> None:
-        if self._nonlocal:
+        if self.nonlocal_entries:
             self._nonlocal_prepass()
         self._local_kernel()
-        if self._nonlocal:
+        if self.nonlocal_entries:
             self._nonlocal_postpass()
 
     def _local_kernel(self) -> None:
@@ -388,7 +388,7 @@ class Solver:
             to_time = _checks.finite_number("to_time", to_time)
             steps = max(int(math.ceil(to_time / self.dt - 1e-9)) - self.step_count, 0)
         steps = _checks.positive_int("steps", steps, minimum=0)
-        bar = Progress(steps, self.dt, enabled=progress)
+        bar = progress_bar(steps, "advance", enabled=progress)
         if self._energy0 is None:
             self.check_health()
         if self.ledger is not None and not self.ledger.samples:
@@ -413,7 +413,7 @@ class Solver:
                     self.ledger.sample()
                 if callback is not None and (self.step_count - start) % callback_every == 0:
                     callback(self)
-                bar.update(done)
+                bar.update(chunk)
             self.stop_reason = f"completed {steps} steps"
         except KeyboardInterrupt:
             self.stop_reason = f"interrupted at step {self.step_count}"

@@ -47,7 +47,7 @@ def render_frames(res: Results, component: str | None = None, max_frames: int | 
     y = res.array("snapshots/y")
     attrs = res.root[f"snapshots/{comp}"].attrs
     si = float(attrs.get("si_factor", 1.0)) ** (2 if energy else 1)
-    unit = str(attrs.get("si_units", "")) + ("^2" if energy else "")
+    unit = str(attrs.get("units", "")) + ("^2" if energy else "")
     scale, lab = _length_scale(u["length"], x[-1] - x[0])
     L = plan["length"]
     for k in range(n):

@@ -155,7 +155,7 @@ def plot_spectra(res: Results, outdir: Path, formats=("png", "pdf"), stem="spect
     kx = res.array("doppler/kx") / (u["length"] * 1e6)       # 1/um
     br = res.array("doppler/branch")
     pw = res.array("doppler/power") * res.root["doppler/power"].attrs["si_factor"]
-    si = res.root["doppler/power"].attrs["si_units"]
+    si = res.root["doppler/power"].attrs["units"]
     fig, ax = plt.subplots(figsize=(7, 4.2))
     floor = 1e-7 * max(np.abs(pw).max(), 1e-300)
     styles = {1: (NORMAL, "o", "normal Doppler branch"), -1: (ANOMALOUS, "s", "anomalous Doppler branch"),
@@ -246,7 +246,7 @@ def plot_ledger(res: Results, outdir: Path, formats=("png", "pdf"), stem="ledger
     u = res.units()
     t = res.array("ledger/time") * u["time"] * 1e15
     fac = res.root["ledger/stored"].attrs["si_factor"]
-    si = res.root["ledger/stored"].attrs["si_units"]
+    si = res.root["ledger/stored"].attrs["units"]
     fig, ax = plt.subplots(figsize=(7, 4))
     for name, sty, c in (("stored", "-", REFERENCE), ("source_work", "--", NORMAL), ("bath", "-.", ACCENT[0]),
                          ("outflow", ":", ANOMALOUS)):

@@ -1,0 +1,429 @@
+r"""Sizing rules: a resolved scenario becomes a :class:`Plan`, everything one run needs.
+
+A plan holds numbers in the solver's normalized units (lengths in ell, times in ell/c,
+frequencies in c/ell) and the material objects and regions to paint, so that the
+experiment procedure (:mod:`fdtd.experiment.procedure`) never reads the scenario file
+again.  Every automatic choice that changes what the user asked (cell length, cell
+size) is listed in :attr:`Plan.adjustments` and reported in the run summary.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+from dataclasses import asdict, dataclass, field
+
+import numpy as np
+import scipy.constants as sc
+
+from fdtd.errors import GapwakeError
+from fdtd.media.materials import Material
+from fdtd.scenario import quantities as Q
+from fdtd.scenario.quantities import ScenarioError
+from fdtd.scenario.resolve import Resolved
+from fdtd.space.geometry import Grating, HalfSpace, Polygon, Rectangle, Slab
+from fdtd.space.grid import E_COMPONENTS, H_COMPONENTS
+
+#: 1D grids keep every harmonic; 2D grids record harmonics up to k_x dx = pi/3 (the rest
+#: is reported as unresolved work): fewer than six cells per wavelength beyond it
+#: (common practice: 10-20 cells per wavelength for a few per cent of phase error)
+M_MAX_FRACTION_2D = 6
+
+
+@dataclass
+class Plan:
+    """Everything a run needs, in normalized units (lengths in ell).
+
+    ``placements`` are (region, material) pairs painted in order over ``background``;
+    ``stack`` is the planar layered stack for the exact reference (None when the
+    geometry is not planar); ``surfaces`` the y of the planar interfaces.
+    """
+
+    kind: str                     # "comoving" or "open"
+    polarization: str             # "te", "tm" or "1d"
+    cell: float
+    length: float
+    half_height: float
+    absorber: float
+    nx: int
+    ny: int
+    courant: float
+    speed: float
+    height: float
+    x0: float
+    source_kind: str              # "dipole" or "charge"
+    omega0: float | None          # rest-frame angular frequency (dipole)
+    Omega: float                  # lab internal frequency omega0 / gamma (0 for a charge)
+    axis: str
+    moment: float
+    charge: float
+    ramp: float                   # proper time of the dipole's switch-on
+    speed_ramp: float             # lab time for a charge to reach its speed
+    shape: tuple
+    transits: int
+    settle_tol: float
+    max_time: float
+    open_time: float | None
+    flux_heights: list
+    snapshots: int
+    snapshot_component: str
+    line_component: str | None
+    line_height: float | None
+    line_every: int
+    doppler: bool
+    reference: bool
+    checkpoint_every: int
+    threads: int | None
+    passage_span: tuple | None
+    subsamples: int
+    ell: float = 1.0              # the reference length in metres
+    where: str = "scenario"
+    transition_dipole: float | None = None    # SI (C or C m^-1 per length); None: half the moment
+    surfaces: list = field(default_factory=list)
+    warnings: list = field(default_factory=list)
+    notes: list = field(default_factory=list)
+    adjustments: list = field(default_factory=list)
+    # objects (not part of the JSON record)
+    background: Material | None = field(default=None, repr=False)
+    placements: list = field(default_factory=list, repr=False)
+    stack: object = field(default=None, repr=False)
+    units: object = field(default=None, repr=False)
+    material_table: dict = field(default_factory=dict, repr=False)
+
+    _OBJECTS = ("background", "placements", "stack", "units", "material_table")
+
+    @property
+    def gamma(self) -> float:
+        return 1.0 / math.sqrt(1.0 - self.speed * self.speed)
+
+    @property
+    def transit(self) -> float:
+        """Time for the source to cross the cell, L / v (normalized)."""
+        return self.length / self.speed if self.speed > 0 else math.inf
+
+    @property
+    def switch_on(self) -> float:
+        """Lab time by which the source is fully switched on (oscillation and speed)."""
+        return self.ramp * self.gamma + self.speed_ramp
+
+    @property
+    def dims(self) -> int:
+        return 1 if self.polarization == "1d" else 2
+
+    def seconds(self, t: float) -> float:
+        return t * self.ell / sc.c
+
+    def as_dict(self) -> dict:
+        d = asdict(self)
+        for k in self._OBJECTS:
+            d.pop(k, None)
+        return d
+
+    def to_json(self) -> str:
+        return json.dumps(self.as_dict(), default=str)
+
+
+# ----------------------------------------------------------------------------- geometry
+def placements(res: Resolved):
+    """(placements, planar stack or None, surfaces, background) in normalized units."""
+    from fdtd.reference.planar import Stack
+
+    v = res.scenario.values
+    g = v["geometry"]
+    M = res.materials
+    bg = M[g["background"]]
+    pl, surfaces, stack = [], [], None
+    surf = res.L(g["surface"])
+    if g["kind"] == "half-space":
+        pl.append((HalfSpace("y", below=surf), M[g["material"]]))
+        surfaces = [surf]
+        stack = Stack(M[g["material"]], (), bg, surf)
+    elif g["kind"] == "slab":
+        t = res.L(g["thickness"])
+        pl.append((Slab("y", surf - t, surf), M[g["material"]]))
+        surfaces = [surf - t, surf]
+        stack = Stack(bg, ((M[g["material"]], t),), bg, surf - t)
+    elif g["kind"] == "slot":
+        gap = res.L(g["gap"])
+        lt, ut = res.L(g["lower_thickness"]), res.L(g["upper_thickness"])
+        lower, upper = M[g["lower"]], M[g["upper"]]
+        pl.append((Slab("y", surf - lt, surf) if lt else HalfSpace("y", below=surf), lower))
+        pl.append((Slab("y", surf + gap, surf + gap + ut) if ut else HalfSpace("y", above=surf + gap), upper))
+        surfaces = [surf, surf + gap] + ([surf - lt] if lt else []) + ([surf + gap + ut] if ut else [])
+        layers, bottom, top = [], lower, upper
+        if lt:
+            bottom, layers = bg, [(lower, lt)]
+        layers.append((bg, gap))
+        if ut:
+            layers.append((upper, ut))
+            top = bg
+        stack = Stack(bottom, tuple(layers), top, surf - (lt or 0.0))
+    for r in v["regions"]:
+        mat = M[r["material"]]
+        sh = r["shape"]
+        if sh == "half-space":
+            reg = HalfSpace("y", below=res.L(r["below"])) if r["below"] is not None else \
+                HalfSpace("y", above=res.L(r["above"]))
+        elif sh == "slab":
+            reg = Slab("y", res.L(r["lo"]), res.L(r["hi"]))
+        elif sh == "rectangle":
+            reg = Rectangle(res.L(r["x0"]), res.L(r["x1"]), res.L(r["y0"]), res.L(r["y1"]))
+        elif sh == "polygon":
+            verts = [[Q.parse(c, "length", "regions.vertices", res.scenario.where, res.scenario.natural)
+                      / res.ell for c in pt] for pt in r["vertices"]]
+            reg = Polygon(tuple(map(tuple, verts)))
+        else:
+            reg = Grating(res.L(r["period"]), r["duty"], res.L(r["top"]), res.L(r["depth"]))
+        pl.append((reg, mat))
+        stack = None          # no longer planar in the reference's sense
+    if g["kind"] == "none" and not v["regions"]:
+        stack = Stack(bg, (), bg, -1e6)
+    return pl, stack, surfaces, bg
+
+
+# ----------------------------------------------------------------------------- sizing
+def light_line_safe_length(approx_length: float, cell: float, speed: float, internal_frequency: float,
+                           search: float = 0.2) -> float:
+    """A cell length near ``approx_length`` (a whole number of cells) whose harmonics
+    k_m = 2 pi m / L keep away from the vacuum light-line crossings of the normal
+    Doppler line, k = Omega/(1 - v) and k = -Omega/(1 + v).
+
+    A harmonic right at a crossing radiates at grazing incidence: its field builds up
+    and leaks out slowly, and a periodic cell then needs very long runs
+    (docs/theory/periodic-cell.md).
+    """
+    best, best_score = None, -1.0
+    n0 = int(round(approx_length / cell))
+    span = max(int(round(search * n0)), 1)
+    crossings = [internal_frequency / (1 - speed), -internal_frequency / (1 + speed)]
+    for n in range(max(n0 - span, 4), n0 + span + 1):
+        L = n * cell
+        dk = 2 * np.pi / L
+        score = 0.5 - min(abs(((c / dk) % 1.0) - 0.5) for c in crossings)
+        if score > best_score:
+            best, best_score = L, score
+    return best
+
+
+def _cell_size(res: Resolved, grid: dict, w_hi, height, surfaces, notes) -> float:
+    if grid.get("cell") is not None:
+        return res.L(grid["cell"])
+    n_max = 1.0
+    if w_hi is not None:
+        for m in res.materials.values():
+            w = np.linspace(0.05 * w_hi, w_hi, 200)
+            n = np.abs(np.real(np.sqrt(np.asarray(m.permittivity(w), dtype=complex))))
+            n_max = max(n_max, float(np.percentile(n, 90)))
+        cell = 2 * math.pi / (w_hi * n_max) / grid["cells_per_wavelength"]
+    else:
+        cell = 0.05
+    if surfaces:
+        dmin = min(abs(height - y) for y in surfaces)
+        if dmin > 0 and cell > dmin / 8:
+            cell = dmin / 8
+            notes.append("cell limited to 1/8 of the source's distance to the nearest surface")
+    return cell
+
+
+def plan(res: Resolved) -> Plan:
+    """Apply the sizing rules to a resolved scenario (raises ScenarioError)."""
+    v = res.scenario.values
+    grid, s, run, rec = v["grid"], v["source"], v["run"], v["record"]
+    where = res.scenario.where
+    speed = float(s["speed"])
+    pol = grid["polarization"]
+    gam = 1.0 / math.sqrt(1 - speed * speed)
+    allowed = E_COMPONENTS[pol] + H_COMPONENTS[pol]
+    for key in ("snapshot_component", "line_component"):
+        if rec.get(key) is not None and rec[key] not in allowed:
+            raise ScenarioError(f"{where}: record.{key} = {rec[key]!r} is not a field of the "
+                                f"{pol.upper()} grid: expected one of {', '.join(allowed)}")
+    if s["kind"] == "dipole":
+        omega0 = res.W(s["frequency"])
+        Omega = omega0 / gam
+        w_hi = Omega / max(1 - speed, 1e-3)
+    else:
+        omega0, Omega = None, 0.0
+        w_hi = res.W(s["max_frequency"]) if s.get("max_frequency") else None
+    pl, stack, surfaces, bg = placements(res)
+    notes, adjustments = list(res.notes), []
+    if pol == "1d":
+        _check_1d(res, notes)
+    height = res.L(s["height"])
+    if s.get("gap_fraction") is not None:
+        g = v["geometry"]
+        height = res.L(g["surface"]) + s["gap_fraction"] * res.L(g["gap"])
+    cell = _cell_size(res, grid, w_hi, height, surfaces, notes)
+    length = res.L(grid["length"])
+    nx = max(int(round(length / cell)), 8)
+    if run["kind"] == "comoving":
+        if s["kind"] == "dipole" and pol != "1d":     # 1D: a uniform medium, no vacuum light line
+            asked, cell_asked = length, length / nx
+            length = light_line_safe_length(length, cell_asked, speed, Omega)
+            nx = max(int(round(length / cell_asked)), 8)
+            if abs(length - asked) > 1e-9 * asked:
+                adjustments.append(
+                    f"cell length {asked * res.ell:.4g} m -> {length * res.ell:.4g} m: no harmonic on "
+                    "the vacuum light-line crossing of a Doppler line")
+        cell = length / nx
+    half_height = res.L(grid["height"]) if grid.get("height") is not None else \
+        max(2.0 * max([abs(height)] + [abs(y) for y in surfaces]) + 1.0, 2.0)
+    lam0 = 2 * math.pi / (omega0 if omega0 else (w_hi or 1.0))
+    absorber = res.L(grid["absorber"]) if grid.get("absorber") is not None else max(lam0 / 4, 10 * cell)
+    if pol == "1d":
+        ny, half_height, absorber, height = 1, cell, 0.0, 0.0
+    elif run["kind"] == "comoving":
+        ny = 2 * int(round(half_height / cell)) + 2 * max(int(round(absorber / cell)), 10)
+    else:
+        ny = int(round(2 * half_height / cell)) + 2 * max(int(round(absorber / cell)), 10)
+        nx = nx + 2 * max(int(round(absorber / cell)), 10)
+    ramp = s["ramp_periods"] * 2 * math.pi / omega0 if omega0 else 0.0
+    speed_ramp = res.T(s["speed_ramp"]) if s.get("speed_ramp") is not None else (
+        2.0 * lam0 / (2 * math.pi) if s["kind"] == "charge" else 0.0)
+    max_time = res.T(run["max_time"]) if run.get("max_time") is not None else \
+        (ramp * gam + speed_ramp + 60 * (length / speed if speed > 0 else 1.0))
+    flux = [res.L(Q.parse(y, "length", "record.flux_heights", where, res.scenario.natural))
+            for y in rec.get("flux_heights") or ()]
+    moment = (s["moment"] / res.units.dipole_moment) if s.get("moment") is not None else 1.0
+    charge = (s["charge"] / res.units.charge) if s.get("charge") is not None else 1.0
+    order, scale = s["shape_order"], s["shape_scale"]
+    reach = (0.5 * (order + 1) * scale + 1.5) * cell
+    if pol != "1d" and abs(height) + reach > half_height:
+        raise ScenarioError(
+            f"{where}: source.height = {height * res.ell:.4g} m does not fit in the interior: "
+            f"grid.height = {half_height * res.ell:.4g} m must exceed |height| plus the source's reach "
+            f"({reach * res.ell:.4g} m with cell {cell * res.ell:.4g} m and shape {order}x{scale}); "
+            "raise grid.height or refine grid.cell")
+    p = Plan(kind=run["kind"], polarization=pol, cell=cell, length=length, half_height=half_height,
+             absorber=absorber, nx=nx, ny=ny, courant=grid["courant"], speed=speed, height=height,
+             x0=res.L(s["x0"]), source_kind=s["kind"], omega0=omega0, Omega=Omega, axis=s["axis"],
+             moment=moment, charge=charge, ramp=ramp, speed_ramp=speed_ramp,
+             shape=(order, scale), transits=run["transits"],
+             settle_tol=run["settle_tolerance"], max_time=max_time, open_time=res.T(run.get("time")),
+             flux_heights=flux if pol != "1d" else [], snapshots=rec["snapshots"],
+             snapshot_component=rec.get("snapshot_component") or ("Hz" if pol != "tm" else "Ez"),
+             line_component=rec.get("line_component"), line_height=res.L(rec.get("line_height")),
+             line_every=rec["line_every"], doppler=rec["doppler"], reference=rec["reference"],
+             checkpoint_every=run["checkpoint_every"], threads=grid.get("threads"),
+             passage_span=(res.L(rec["passage_start"]), res.L(rec["passage_stop"]))
+             if rec.get("passage_start") is not None and rec.get("passage_stop") is not None else None,
+             subsamples=grid["subsamples"], ell=res.ell, where=where,
+             transition_dipole=s.get("transition_dipole"), surfaces=surfaces, notes=notes,
+             adjustments=adjustments, background=bg, placements=pl, stack=stack, units=res.units,
+             material_table=dict(res.materials))
+    if pol == "1d":
+        p.stack = stack            # the uniform medium: Bulk1D uses stack.bottom
+    plan_warnings(p, res)
+    return p
+
+
+def _check_1d(res: Resolved, notes: list) -> None:
+    """The 1D grid (Ey, Hz along x) runs one case: a transverse dipole sheet moving along x
+    through a uniform medium in a co-moving periodic cell (the bulk anomalous-Doppler set-up)."""
+    v = res.scenario.values
+    where = res.scenario.where
+    bad = []
+    if v["run"]["kind"] != "comoving":
+        bad.append(f"run.kind = {v['run']['kind']!r}: expected 'comoving'")
+    if v["geometry"]["kind"] != "none" or v["regions"]:
+        bad.append(f"geometry.kind = {v['geometry']['kind']!r} (or [[regions]]): expected 'none' with the "
+                   "medium as geometry.background (a uniform medium along the motion)")
+    if v["source"]["kind"] != "dipole":
+        bad.append(f"source.kind = {v['source']['kind']!r}: expected 'dipole' (a uniformly moving charge "
+                   "sheet has no radiation field in 1D)")
+    elif v["source"]["axis"] != "y":
+        bad.append(f"source.axis = {v['source']['axis']!r}: expected 'y' (the 1D grid carries Ey, Hz)")
+    if bad:
+        raise ScenarioError(f"{where}: grid.polarization = '1d' runs a dipole sheet in a uniform medium; "
+                            + "; ".join(bad))
+    if v["record"].get("flux_heights"):
+        notes.append("1D: no flux lines (record.flux_heights is ignored); the whole line is the medium")
+
+
+# ----------------------------------------------------------------------------- warnings
+def _anomalous_grid_warning(p: Plan, res: Resolved) -> None:
+    """Warn (before the run) when the anomalous branch at this speed can only come from
+    under-resolved wavenumbers near the grid's cutoff.
+
+    The grid allows anomalous emission from v_grid on (its discrete dispersion, k <= pi/dx);
+    the well-resolved wavenumbers, k dx <= pi/6 (at least 12 cells per wavelength, the
+    criterion of the run summary), only from v_res on.  Between the two, whatever the run
+    shows on the anomalous branch is a property of the grid (docs/theory/thresholds.md)."""
+    if p.source_kind != "dipole" or not p.speed or not p.omega0:
+        return
+    from fdtd.reference import thresholds as th
+
+    g = res.scenario.values["geometry"]
+    if p.polarization == "1d":
+        media, geo = [res.materials[g["background"]]], th.Geometry.bulk(1)
+    else:
+        names = [g.get("material")] if g["kind"] in ("half-space", "slab") else \
+            [g.get("lower"), g.get("upper")] if g["kind"] == "slot" else []
+        media = [res.materials[n] for n in names if n]
+        dist = [abs(p.height - y) for y in p.surfaces] or [0.0]
+        if not media or min(dist) <= 0:
+            return
+        geo = th.Geometry.gap(min(dist))
+    dt = p.courant * p.cell / math.sqrt(1 if p.polarization == "1d" else 2)
+    try:
+        for m in media:
+            if not m.poles:
+                continue
+            v_grid = th.anomalous_threshold(m, p.omega0, th.Cutoff.grid(p.cell, dt), geo).speed
+            v_res = th.anomalous_threshold(m, p.omega0, th.Cutoff.resolved(p.cell, dt), geo).speed
+            if np.isfinite(v_grid) and v_grid <= p.speed and not (np.isfinite(v_res) and v_res <= p.speed):
+                p.warnings.append(
+                    f"anomalous-Doppler emission into {m.name!r} at {p.speed:.3g} c is possible on this grid "
+                    f"only through wavenumbers near its cutoff (threshold {v_grid:.3g} c with the grid's "
+                    f"k <= pi/dx, above {p.speed:.3g} c with k dx <= pi/6): the anomalous branch of this "
+                    "run will be a property of the grid; refine grid.cell or give the medium a physical "
+                    "cutoff (beta_nl)")
+    except GapwakeError:      # a material the calculator cannot treat: no warning, no failure
+        return
+
+
+def plan_warnings(p: Plan, res: Resolved) -> None:
+    """Warnings a user should see before the run (resolution, numerical Cherenkov, overlap,
+    absorber distance, settling time)."""
+    from fdtd.sources.moving import numerical_phase_velocity_limit
+    from fdtd.sources.shapes import Shape
+
+    _anomalous_grid_warning(p, res)
+    to_rad_s = sc.c / p.ell
+    freqs = []
+    if p.omega0:
+        freqs = [p.Omega, p.Omega / max(1 - p.speed, 1e-3)]
+    elif res.scenario.values["source"].get("max_frequency"):
+        freqs = [res.W(res.scenario.values["source"]["max_frequency"])]
+    for name, m in res.materials.items():
+        for w in freqs:
+            with np.errstate(all="ignore"):
+                n = abs(np.real(np.sqrt(complex(m.permittivity(w)))))
+            if n > 0:
+                cpw = 2 * math.pi / (w * n) / p.cell
+                if cpw < 10:
+                    p.warnings.append(f"only {cpw:.1f} cells per wavelength in {name!r} at omega = "
+                                      f"{w * to_rad_s:.4g} rad/s: refine grid.cell (>= 10 advised)")
+    shape = Shape(*p.shape)
+    dt_guess = p.courant * p.cell / math.sqrt(2 if p.polarization != "1d" else 1)
+    lim = numerical_phase_velocity_limit(dt_guess, p.cell, shape)
+    if p.speed > lim:
+        p.warnings.append(f"source speed {p.speed:.4g} c exceeds the grid's numerical vacuum phase velocity "
+                          f"{lim:.4g} c at the wavenumbers it excites: numerical Cherenkov radiation")
+    if p.polarization == "1d":
+        return
+    half_y = p.source_kind == "dipole" and p.axis == "y"
+    reach = (shape.half_support + (0.5 if half_y else 0.0)) * p.cell
+    if p.surfaces and min(abs(y - p.height) for y in p.surfaces) < reach:
+        p.warnings.append(f"the source's deposit reaches {reach * p.ell:.3g} m from its path, beyond the "
+                          f"nearest surface {min(abs(y - p.height) for y in p.surfaces) * p.ell:.3g} m away: "
+                          "the source overlaps a material (raise source.height or refine grid.cell); "
+                          "no planar reference for such a point")
+    margin = p.half_height - abs(p.height)
+    if margin < max(5 * p.cell, 2 * math.pi / (p.omega0 or 1.0) / 8):
+        p.warnings.append(f"the source runs {margin * p.ell:.3g} m from the absorbing layer: raise grid.height")
+    if p.kind == "comoving" and p.speed > 0:
+        need = p.switch_on + 5 * p.transit
+        if p.max_time < need:
+            p.warnings.append(f"run.max_time = {p.seconds(p.max_time):.3g} s leaves less than five transit "
+                              "times to settle: the run may stop before a steady state")
