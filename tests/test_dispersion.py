@@ -4,7 +4,7 @@ Reference for vacuum: the Yee discrete dispersion relation
 sin^2(w dt/2)/(c dt)^2 = sum_i sin^2(k_i d_i/2)/d_i^2
 (A. Taflove and S. C. Hagness, Computational Electrodynamics, 3rd ed. (2005),
 ch. 4, eq. 4.12 for 2D; from memory).  For the Lorentz medium the reference is
-the discrete relation derived in DEVELOPERS.md ("Discrete permittivity"),
+the discrete relation derived in docs/theory/yee-and-ade.md ("ADE and the discrete permittivity"),
 (2/dt)^2 sin^2(w dt/2) eps_d(w) = K^2, and the continuum polariton relation
 w^2 eps(w) = c^2 k^2 (e.g. C. Kittel, Introduction to Solid State Physics,
 8th ed., ch. 14 on polaritons; from memory).

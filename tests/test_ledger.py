@@ -1,7 +1,7 @@
 """The energy ledger closes: stored energy change = source work - bath heat - outflow.
 
-The identity is exact for the discrete scheme (derivation in DEVELOPERS.md, "Energy
-ledger"), so the residual is at round-off (measured <= 1.9e-15 of the source work; held
+The identity is exact for the discrete scheme (derivation in docs/theory/energy-ledger.md),
+so the residual is at round-off (measured <= 1.9e-15 of the source work; held
 to 1e-13).  The issue asked for 1e-3, which the round-off bound implies.
 """
 

@@ -1,8 +1,8 @@
 """A dipole oscillating in its rest frame and moving through vacuum.
 
-Expected (DEVELOPERS.md, "Moving dipole"): the lab-frame radiated power equals the
-rest-frame power, because the rest-frame emission carries no net momentum and
-energy per lab time then transforms like energy per proper time (radiated power is
+Expected (docs/theory/frames-and-drag.md, "A moving dipole in vacuum"): the lab-frame
+radiated power equals the rest-frame power, because the rest-frame emission carries no net
+momentum and energy per lab time then transforms like energy per proper time (radiated power is
 Lorentz invariant: J. D. Jackson, Classical Electrodynamics, 3rd ed., sec. 14.1,
 from memory).  In vacuum nothing can sit on the anomalous Doppler line
 omega = k v - omega0/gamma > 0: it would need a phase velocity along x below c.

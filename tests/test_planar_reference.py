@@ -3,7 +3,7 @@
 Closed forms: line sources at rest in vacuum (omega^3 p^2/8 out of plane, /16 in plane,
 from the 2D Green's function (i/4) H0(k rho): see tests/test_radiation.py, where they
 are also checked against scipy.special Hankel functions); the 2D Frank-Tamm formula
-(DEVELOPERS.md; 3D original I. E. Tamm and I. M. Frank, "Coherent radiation of a fast
+(docs/theory/frank-tamm-2d.md; 3D original I. E. Tamm and I. M. Frank, "Coherent radiation of a fast
 electron in a medium", Dokl. Akad. Nauk SSSR 14, 107 (1937), reference checked with the
 search tool; Jackson sec. 13.4, from memory); Lorentz
 invariance of the radiated power of a dipole moving in vacuum (Jackson sec. 14.1,

@@ -192,7 +192,7 @@ def test_si_normalized_and_lab_frame_are_consistent():
     units_2d = f.UnitSystem(length=500e-9, field=3.0, dims=2)
     units_1d = f.UnitSystem(length=500e-9, field=3.0, dims=1)
     # 2D SI closed form against the code base's line-current statement eta0 k I^2/16 (in plane),
-    # I = omega p0 (DEVELOPERS.md "Sources"), written with scipy.constants
+    # I = omega p0 (docs/theory/line-sources.md), written with scipy.constants
     w_si, p = 3.7e15, 2.2e-19
     eta0 = sc.mu_0 * sc.c
     line = eta0 * (w_si / sc.c) * (w_si * p) ** 2               # eta0 k I^2

@@ -1,5 +1,5 @@
 """The stability limit of the combined Yee + ADE scheme (derivation in fdtd/space/stability.py
-and DEVELOPERS.md), checked by the growth of runs just above and just below it."""
+and docs/theory/stability.md), checked by the growth of runs just above and just below it."""
 
 import warnings
 

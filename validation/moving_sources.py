@@ -5,8 +5,8 @@ Writes validation/report/moving_sources.md with figures.  Run:
 
 References: 2D analogue of the Frank-Tamm formula (I. Frank and I. Tamm, Dokl. Akad.
 Nauk SSSR 14, 109 (1937); J. D. Jackson, Classical Electrodynamics, 3rd ed., sec. 13.4,
-for the 3D original; from memory), derived in DEVELOPERS.md; Lorentz invariance of the
-radiated power (Jackson sec. 14.1, from memory).
+for the 3D original; from memory), derived in docs/theory/frank-tamm-2d.md; Lorentz
+invariance of the radiated power (Jackson sec. 14.1, from memory).
 """
 
 from __future__ import annotations

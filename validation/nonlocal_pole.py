@@ -7,7 +7,7 @@ Model: the exciton model with spatial dispersion of J. J. Hopfield and D. G. Tho
 Phys. Rev. 132, 563 (1963), with Pekar's additional boundary condition P = 0 at the surface
 (S. I. Pekar, Sov. Phys. JETP 6, 785 (1958)); both from memory; the boundary-condition problem
 is reviewed in V. M. Agranovich and V. L. Ginzburg, Sov. Phys. Usp. 5, 675 (1963), sec. 3e.
-The discrete relations are derived in DEVELOPERS.md ("Nonlocal pole").
+The discrete relations are derived in docs/theory/nonlocal-pole.md.
 """
 
 from __future__ import annotations

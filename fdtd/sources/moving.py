@@ -7,7 +7,7 @@ Gauss's law on the grid, ``div D - rho``, is kept at round-off for the whole run
 **Dipoles** carry a rest-frame moment ``p'(tau) = p0 R(tau) cos(omega0 tau + phase)``
 along a fixed axis, with ``tau`` the proper time and ``R`` an optional smooth
 switch-on over ``ramp`` (proper time).  The lab-frame moment of a point dipole
-moving with velocity v is (DEVELOPERS.md, "Moving dipole")
+moving with velocity v is (docs/theory/moving-sources.md, "Moving dipole")
 
 .. math::  \mathbf p = \mathbf p' - \left(1 - \tfrac{1}{\gamma}\right)(\mathbf p'\cdot\hat v)\hat v ,
 

@@ -1,6 +1,6 @@
 r"""Stability limit of the combined Yee + ADE scheme.
 
-Derivation (written out in DEVELOPERS.md, "Stability of Yee + ADE").  For a
+Derivation (written out in docs/theory/stability.md).  For a
 plane wave ``exp(i k.x - i omega n dt)`` in a homogeneous medium the scheme
 obeys
 

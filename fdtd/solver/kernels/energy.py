@@ -1,4 +1,4 @@
-r"""Stored-energy terms of the discrete energy ledger (see DEVELOPERS.md, "Energy ledger").
+r"""Stored-energy terms of the discrete energy ledger (see docs/theory/energy-ledger.md).
 
 At integer time level n the scheme conserves, in a lossless source-free
 closed region,

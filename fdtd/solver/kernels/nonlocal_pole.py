@@ -18,8 +18,8 @@ gives exactly the fused update.  :func:`prepass` computes ``Q`` from ``P^n``
 :func:`postpass` applies it.  The steppers' bath tally is switched off for
 nonlocal slots; :func:`postpass` books it with the corrected ``P^{n+1}``, and
 the energy that leaves the ledger box through the polarization gradient
-(summation by parts of ``L`` across the box faces, DEVELOPERS.md "Nonlocal
-pole").
+(summation by parts of ``L`` across the box faces, docs/theory/nonlocal-pole.md,
+"Energy").
 
 Arrays are 2D ``[row, col]``: a 1D grid is one row (``inv_h2[0] = 0``).
 ``P, Po`` (ns, rows, cols) hold one E component's polarization;
@@ -54,7 +54,7 @@ def _laplacian_at(P, s, mix, nlg, g, diag, i, j, inv_h2, periodic, r0, r1, q0, q
     """(L P)_ij over the nodes of pole group g: neighbours of the group in rows
     [r0, r1) and columns [q0, q1) (the whole grid for the update, the ledger box
     for energies) minus ``diag[i, j] P_ij`` (``diag`` holds the boundary-aware
-    diagonal, see DEVELOPERS.md "Nonlocal pole")."""
+    diagonal, see docs/theory/nonlocal-pole.md, "Surface")."""
     nr = mix.shape[0]
     nc = mix.shape[1]
     acc = -diag[i, j] * P[s, i, j]
