@@ -295,10 +295,16 @@ def test_api_reads_arrays_and_changes_parameters(tiny_run, tmp_path):
         assert r.array("doppler/kx").shape == r.array("doppler/power").shape
     sc = fdtd.load(path).set("source.speed", "0.3 c").set("record.snapshots", 0)
     out = fdtd.run(sc, tmp_path / "slow.h5", progress=False)
-    assert out.value("speed") == pytest.approx(0.3)
+    # the changed values reached the run: its plan, its summary, what it stored
+    assert out.value("speed") == pytest.approx(0.3, rel=1e-12, abs=0)
+    with fdtd.open_results(out.file) as r:
+        assert r.plan["speed"] == pytest.approx(0.3, rel=1e-12, abs=0) and r.plan["snapshots"] == 0
+        assert "snapshots" not in r.root and r.has("doppler/power")
+        # a run that did not settle says so, in the file and in the summary
+        assert (r.status == "complete") == (out.value("steady") is True)
     assert "snapshots" not in fdtd.as_arrays(out.file)
     reports = fdtd.check(sc)
-    assert reports and "cells" in reports[0].text
+    assert reports and "cells" in reports[0].text and "v = 0.3 c" in reports[0].text
 
 
 def test_json_summary(tmp_path, capsys):
@@ -544,11 +550,19 @@ def test_animation_frames(tiny_run, tmp_path, capsys, suffix):
     written = Path(capsys.readouterr().out.split()[-1])
     if suffix == ".mp4" and written.suffix == ".gif":
         pytest.skip("no MP4 encoder on this machine (GIF fallback written)")
-    frames = iio.imread(written, index=None)
-    assert frames.shape[0] == 5
-    assert float(np.var(frames[..., :3])) > 1.0
-    # the colour scale is fixed: a pixel far from the source keeps its colour where the field is weak
-    assert frames.shape[1] > 50 and frames.shape[2] > 50
+    frames = iio.imread(written, index=None)[..., :3].astype(float)
+    assert frames.shape[0] == 5 and frames.shape[1] > 50 and frames.shape[2] > 50
+    assert float(np.var(frames)) > 1.0
+    # the field moves: the plot area changes from frame to frame
+    h, w = frames.shape[1:3]
+    plot = frames[:, int(0.2 * h):int(0.8 * h), int(0.15 * w):int(0.7 * w)]
+    assert all(np.abs(plot[k + 1] - plot[k]).mean() > 0.5 for k in range(len(plot) - 1))
+    # the colour scale is fixed: the colour bar with its tick labels (right-hand strip) is the
+    # same picture in every frame (lossy MP4 coding: equal up to a few grey levels)
+    bar = frames[:, int(0.2 * h):int(0.8 * h), int(0.82 * w):]
+    tol = 0.5 if suffix == ".gif" else 6.0
+    assert all(np.abs(bar[k] - bar[0]).mean() < tol for k in range(1, len(bar))), \
+        [float(np.abs(bar[k] - bar[0]).mean()) for k in range(1, len(bar))]
 
 
 # ----------------------------------------------------------------------------- help

@@ -131,14 +131,21 @@ class Polygon(Region):
         object.__setattr__(self, "vertices", tuple(map(tuple, v)))
 
     def contains(self, *coords):
-        from matplotlib.path import Path
-
+        """Even-odd (crossing-number) rule: a point is inside when a ray along +x from it
+        crosses the boundary an odd number of times (half-open edges, so a vertex on the
+        ray counts once)."""
         if len(coords) != 2:
             raise GeometryError("a polygon needs a 2D grid")
-        x, y = np.broadcast_arrays(*coords)
-        pts = np.column_stack([x.ravel(), y.ravel()])
-        inside = Path(np.asarray(self.vertices)).contains_points(pts)
-        return inside.reshape(x.shape)
+        x, y = np.broadcast_arrays(*(np.asarray(c, dtype=float) for c in coords))
+        v = np.asarray(self.vertices)
+        inside = np.zeros(x.shape, dtype=bool)
+        for (x0, y0), (x1, y1) in zip(v, np.roll(v, -1, axis=0)):
+            if y0 == y1:
+                continue
+            straddles = (y0 <= y) != (y1 <= y)
+            x_cross = x0 + (y - y0) * (x1 - x0) / (y1 - y0)
+            inside ^= straddles & (x < x_cross)
+        return inside
 
     def outline(self):
         v = np.asarray(self.vertices)

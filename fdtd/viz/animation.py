@@ -10,6 +10,7 @@ outlines drawn.  MP4 through imageio-ffmpeg (which ships its own encoder); GIF
 from __future__ import annotations
 
 import json
+import logging
 from pathlib import Path
 
 import numpy as np
@@ -100,6 +101,6 @@ def animate(path, out=None, component: str | None = None, fps: int = 12, energy:
             return str(out)
         except Exception as exc:  # no ffmpeg: fall back to GIF
             out = out.with_suffix(".gif")
-            print(f"MP4 encoding unavailable ({exc}); writing {out}")
+            logging.getLogger("fdtd.viz").warning("MP4 encoding unavailable (%s); writing %s", exc, out)
     imageio.mimsave(out, frames, duration=1.0 / fps, loop=0)
     return str(out)
