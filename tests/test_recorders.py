@@ -8,7 +8,9 @@ import numpy as np
 import pytest
 
 import fdtd as f
-from fdtd.recording.fields import DFTRecorder, FieldLineRecorder, SnapshotRecorder
+from fdtd.recording.dft import DFTRecorder
+from fdtd.recording.line import FieldLineRecorder
+from fdtd.recording.snapshots import SnapshotRecorder
 
 NX, DX = 64, 0.1
 N_PERIOD = 80          # steps per period of the standing wave below

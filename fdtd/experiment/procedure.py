@@ -29,7 +29,8 @@ from fdtd._progress import progress_bar
 from fdtd.errors import GapwakeError
 from fdtd.experiment.build import build
 from fdtd.recording.doppler import DopplerFluxRecorder, DopplerWorkRecorder, auto_sampling
-from fdtd.recording.fields import FieldLineRecorder, SnapshotRecorder
+from fdtd.recording.line import FieldLineRecorder
+from fdtd.recording.snapshots import SnapshotRecorder
 from fdtd.recording.passage import PassageWorkRecorder
 from fdtd.recording.steady import DissipationMonitor, SteadyStateWarning, settled, spread
 from fdtd.scenario.plan import M_MAX_FRACTION_2D, Plan
