@@ -217,8 +217,9 @@ def main(argv=None) -> int:
 
 
 def _threshold(args) -> int:
-    from fdtd.reference import thresholds as th
     from fdtd.errors import ParameterError
+    from fdtd.reference.threshold_report import threshold_report
+    from fdtd.scenario.threshold_inputs import resolve_inputs
 
     try:
         scenario = None
@@ -228,17 +229,19 @@ def _threshold(args) -> int:
             scenario = _overrides(Scenario.load(args.file), args.set)
         elif args.set:
             raise ParameterError(f"--set {args.set[0]!r} needs a scenario file")
-        inp = th.resolve_inputs(scenario, material=args.material, eps=args.eps, frequency=args.frequency,
-                                speed=args.speed, height=args.height, cell=args.cell,
-                                courant=args.courant, length=args.length, dims=args.dims,
-                                beta_nl=args.beta_nl, coupling=args.coupling)
+        inp = resolve_inputs(scenario, material=args.material, eps=args.eps, frequency=args.frequency,
+                             speed=args.speed, height=args.height, cell=args.cell,
+                             courant=args.courant, length=args.length, dims=args.dims,
+                             beta_nl=args.beta_nl, coupling=args.coupling)
         notes = inp.pop("notes")
-        rep = th.threshold_report(**inp, notes=notes)
+        rep = threshold_report(**inp, notes=notes)
         figs = []
         if args.output:
-            figs = th.plot_threshold_vs_cutoff(inp["material"], args.output, omega0=inp["omega0"],
-                                               beta_nl=inp["beta_nl"], geometry=inp["geometry"],
-                                               scheme=inp["scheme"], ell=inp["ell"])
+            from fdtd.viz.thresholds import plot_threshold_vs_cutoff     # matplotlib only when asked
+
+            figs = plot_threshold_vs_cutoff(inp["material"], args.output, omega0=inp["omega0"],
+                                            beta_nl=inp["beta_nl"], geometry=inp["geometry"],
+                                            scheme=inp["scheme"], ell=inp["ell"])
     except FileNotFoundError as exc:
         print(f"gapwake: {exc}", file=sys.stderr)
         return 2

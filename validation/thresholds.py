@@ -29,7 +29,8 @@ sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
 
 import fdtd as f  # noqa: E402
 from _report import COLORS, Report, figure, save  # noqa: E402
-from fdtd import thresholds as T  # noqa: E402
+from fdtd.reference import modes as M  # noqa: E402
+from fdtd.reference import thresholds as T  # noqa: E402
 from fdtd.experiment.cell import dipole_sheet_in_bulk  # noqa: E402
 from fdtd.sources.shapes import Shape  # noqa: E402
 
@@ -147,7 +148,7 @@ def main() -> None:
               "speed: green the discrete prediction, dotted the continuum one at the same k.")
     # ---------------------------------------------------------------- 3. curves
     k = np.geomspace(0.5, 200.0, 300)
-    nl = T.with_nonlocal(LOSSLESS, 0.05)
+    nl = M.with_nonlocal(LOSSLESS, 0.05)
     fig, axes = figure(1, 2, figsize=(10, 4.0))
     km, vp = np.array(peaks).T
     for ax in axes:
@@ -200,8 +201,8 @@ def physical_cutoff(rep) -> None:
     for ax, (name, med) in zip(axes, media.items()):
         for c, dx in enumerate(cells):
             p = P[(name, dx)]
-            res = T.anomalous_threshold(T.lossless(med), w0, T.Cutoff.resolved(dx, 0.95 * dx)).speed
-            full = T.anomalous_threshold(T.lossless(med), w0, T.Cutoff.grid(dx, 0.95 * dx)).speed
+            res = T.anomalous_threshold(M.lossless(med), w0, T.Cutoff.resolved(dx, 0.95 * dx)).speed
+            full = T.anomalous_threshold(M.lossless(med), w0, T.Cutoff.grid(dx, 0.95 * dx)).speed
             i = int(np.argmax(p >= 0.1 * p[-1]))
             onsets.append([name, dx, f"{full:.4f}", f"{res:.4f}", f"{speeds[i - 1]:.2f} -> {speeds[i]:.2f}"])
             ax.semilogy(speeds, p, "o-", color=COLORS[c], ms=4, label=f"dx = {dx}")

@@ -14,8 +14,12 @@ import math
 
 import scipy.constants as _sc
 
-from fdtd.media.materials import Material
-from fdtd.reference.modes import Geometry, Scheme, local_version
+from fdtd.media.materials import VACUUM, Material
+from fdtd.reference.cutoffs import Geometry
+from fdtd.reference.modes import Scheme, local_version
+from fdtd.scenario import quantities as Q
+from fdtd.scenario.quantities import ScenarioError
+from fdtd.space.stability import max_stable_dt
 
 _C0 = _sc.c                          # m/s
 
@@ -25,8 +29,6 @@ BUILTIN_MATERIALS = ("SiC",)
 
 def _option_value(value, kind: str, key: str, where: str, natural=None) -> float:
     """SI value of an option: a string with units (scenario rules) or a plain number in SI."""
-    from fdtd.scenario import quantities as Q
-
     if isinstance(value, str):
         try:
             value = float(value)
@@ -39,7 +41,8 @@ def resolve_inputs(scenario=None, *, material: str | None = None, eps=None, freq
                    speed=None, height=None, cell=None, courant=None, length=None,
                    dims: int | None = None, beta_nl=None, coupling=None,
                    where: str = "command line") -> dict:
-    """Resolve a scenario and/or option values into the arguments of :func:`threshold_report`.
+    """Resolve a scenario and/or option values into the arguments of
+    :func:`fdtd.reference.thresholds.threshold_report`.
 
     Values are given as in scenario files (``docs/scenarios.md``): strings with
     units (``"930 1/cm"``, ``"500 nm"``, ``"0.3 c"``) or plain numbers in SI
@@ -47,7 +50,7 @@ def resolve_inputs(scenario=None, *, material: str | None = None, eps=None, freq
 
     Parameters
     ----------
-    scenario : path or :class:`fdtd.scenario.Scenario`, optional
+    scenario : path or :class:`fdtd.scenario.schema.Scenario`, optional
         Material (``geometry.material``; slot: the lower one; no geometry: the
         first region's or the background), source frequency, speed and height
         above the surface, grid cell, Courant fraction and cell length.
@@ -72,16 +75,14 @@ def resolve_inputs(scenario=None, *, material: str | None = None, eps=None, freq
 
     Raises
     ------
-    fdtd.quantities.ScenarioError / ParameterError
+    fdtd.scenario.quantities.ScenarioError / ParameterError
         Naming the option or key, the value and what is allowed.
     """
-    from fdtd.scenario.quantities import ScenarioError
-
     notes: list[str] = []
     res = None
     values = None
     if scenario is not None:
-        from fdtd.scenario.schema import Scenario
+        from fdtd.scenario.schema import Scenario     # only with a scenario (pulls in its resolver)
 
         sc_obj = scenario if isinstance(scenario, Scenario) else Scenario.load(scenario)
         res = sc_obj.resolve()
@@ -212,10 +213,6 @@ def resolve_inputs(scenario=None, *, material: str | None = None, eps=None, freq
     else:
         cf = values["grid"]["courant"] if values is not None else 0.95
     if dx is not None:
-        from fdtd.space.stability import max_stable_dt
-
-        from fdtd.media.materials import VACUUM
-
         media = list(mats.values()) + [mat, VACUUM]
         dt = cf * max_stable_dt((dx,) * dims, [local_version(m) for m in media])
         scheme = Scheme(dx, dt)
