@@ -25,15 +25,8 @@ from dataclasses import dataclass
 import pint
 import scipy.constants as sc
 
+from fdtd._pint import UREG as _UREG      # the package's shared registry ("periods" defined there)
 from fdtd.errors import ParameterError
-
-try:
-    # pint parses its definition file at every start (~0.4 s); its on-disk cache cuts that to
-    # ~0.04 s from the second start on (light commands such as `gapwake threshold` notice)
-    _UREG = pint.UnitRegistry(cache_folder=":auto:")
-except Exception:  # pragma: no cover - an unwritable cache folder: parse as usual
-    _UREG = pint.UnitRegistry()
-_UREG.define("periods = [] = period")   # handled specially (see parse)
 
 KINDS = ("length", "time", "angular_frequency", "rate", "speed", "dimensionless", "charge_per_length",
          "dipole_per_length")

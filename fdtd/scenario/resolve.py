@@ -84,7 +84,7 @@ class Resolved:
                 poles.append(LorentzPole(B, self.W(2 * math.pi * sc.c / lam), 0.0))
             return Material(1.0, tuple(poles), name)
         # table: fitted by the material library
-        from fdtd.media import library as ml  # noqa: F401  (optional module)
+        from fdtd.media import pole_fit as ml  # noqa: F401  (optional module)
 
         path = Path(m["file"])
         if not path.is_absolute():

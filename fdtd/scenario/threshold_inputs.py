@@ -125,7 +125,7 @@ def resolve_inputs(scenario=None, *, material: str | None = None, eps=None, freq
         if material in mats:
             mat = mats[material]
         elif material in BUILTIN_MATERIALS:
-            from fdtd.media.library import silicon_carbide
+            from fdtd.media.formulas import silicon_carbide
 
             mat = silicon_carbide(ell=ell)
         else:
