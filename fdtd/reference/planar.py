@@ -27,172 +27,27 @@ rule split at light-line crossings and at the (lossless) guided-mode poles, so
 that narrow polariton peaks at small loss are resolved.  A periodic cell of
 length L replaces ``int dk/(2 pi)`` by ``(1/L) sum_m`` over k_m = 2 pi m / L.
 
-The 1D bulk case (a transverse dipole sheet moving along x through a uniform
-medium) is :func:`bulk_1d_spectrum` / :class:`Bulk1D`.
+The media and their admittances are :mod:`fdtd.reference.layered`; the quadrature
+:mod:`fdtd.reference.quadrature`.  The 1D bulk case (a transverse dipole sheet
+moving along x through a uniform medium) is :class:`Bulk1D`.
 """
 
 from __future__ import annotations
 
 import math
-from collections.abc import Callable, Sequence
+from collections.abc import Callable
 from dataclasses import dataclass, field
 
 import numpy as np
 
 from fdtd import _checks
 from fdtd.errors import GeometryError, ParameterError
-from fdtd.media.materials import VACUUM, Material
+from fdtd.media.materials import Material
+from fdtd.reference.layered import (Stack, admittances, ky_branch, lossless_material,
+                                    lossless_stack, permittivity)
+from fdtd.reference.quadrature import adaptive_integral
 
-# --------------------------------------------------------------------- media
-
-
-@dataclass(frozen=True)
-class Stack:
-    """Media stratified along y.
-
-    Parameters
-    ----------
-    bottom : Material
-        Half-space y < y0.
-    layers : sequence of (Material, thickness)
-        From bottom to top, starting at y0.
-    top : Material
-        Half-space above the last layer.
-    y0 : float
-        Position of the lowest interface.
-    """
-
-    bottom: Material = VACUUM
-    layers: tuple = ()
-    top: Material = VACUUM
-    y0: float = 0.0
-
-    def __post_init__(self) -> None:
-        lay = []
-        for k, item in enumerate(self.layers):
-            mat, t = item
-            if not isinstance(mat, Material):
-                raise ParameterError(f"layer {k} material {mat!r}: expected a Material")
-            lay.append((mat, _checks.positive(f"layer {k} thickness", t)))
-        object.__setattr__(self, "layers", tuple(lay))
-        for name in ("bottom", "top"):
-            if not isinstance(getattr(self, name), Material):
-                raise ParameterError(f"stack {name}: expected a Material")
-
-    @property
-    def interfaces(self) -> np.ndarray:
-        y = [self.y0]
-        for _m, t in self.layers:
-            y.append(y[-1] + t)
-        return np.array(y)
-
-    @property
-    def media(self) -> list[Material]:
-        return [self.bottom] + [m for m, _t in self.layers] + [self.top]
-
-    def region_of(self, y: float) -> int:
-        """Index into :attr:`media` of the region holding y (an interface is refused)."""
-        yi = self.interfaces
-        if np.any(np.isclose(y, yi, rtol=0, atol=1e-12)):
-            raise GeometryError(f"source height y = {y!r} lies on an interface {yi.tolist()}")
-        return int(np.searchsorted(yi, y))
-
-    @classmethod
-    def half_space(cls, material: Material, surface: float = 0.0) -> Stack:
-        """``material`` below y = surface, vacuum above."""
-        return cls(material, (), VACUUM, surface)
-
-    @classmethod
-    def slab(cls, material: Material, thickness: float, top_surface: float = 0.0) -> Stack:
-        """A slab of ``material`` with its top at ``top_surface``, vacuum on both sides."""
-        return cls(VACUUM, ((material, thickness),), VACUUM, top_surface - thickness)
-
-    @classmethod
-    def slot(cls, lower: Material, upper: Material, gap: float, lower_surface: float = 0.0,
-             lower_thickness: float | None = None, upper_thickness: float | None = None) -> Stack:
-        """A vacuum gap of width ``gap`` between two media (half-spaces unless thicknesses given)."""
-        layers = []
-        bottom = lower
-        if lower_thickness is not None:
-            bottom = VACUUM
-            layers.append((lower, lower_thickness))
-        layers.append((VACUUM, gap))
-        top = upper
-        if upper_thickness is not None:
-            layers.append((upper, upper_thickness))
-            top = VACUUM
-        y0 = lower_surface - (lower_thickness or 0.0)
-        return cls(bottom, tuple(layers), top, y0)
-
-
-def _ky(eps, omega, k):
-    """k_y = sqrt(eps omega^2 - k^2) on the branch Im >= 0 (and Re >= 0 when real)."""
-    ky = np.sqrt(eps * omega * omega - k * k + 0j)
-    ky = np.where(ky.imag < 0, -ky, ky)
-    # on a light line (k_y -> 0, which rounding can hit exactly near a breakpoint): keep
-    # |k_y| above 1e-12 of the wavenumber scale; such nodes carry negligible weight
-    floor = 1e-12 * (np.abs(k) + np.abs(omega) + 1e-300)
-    return np.where(np.abs(ky) < floor, floor * (1 + 1j) / np.sqrt(2), ky)
-
-
-def _eps(material: Material, omega) -> np.ndarray:
-    with np.errstate(divide="ignore", invalid="ignore"):
-        return np.asarray(material.permittivity(np.asarray(omega, dtype=float)), dtype=complex)
-
-
-def _y_up_wave(pol, eps, omega, ky):
-    """Admittance H_t/E_t of an upward (+k_y) wave: TE -omega eps/k_y, TM k_y/omega."""
-    return -omega * eps / ky if pol == "te" else ky / omega
-
-
-def admittances(stack: Stack, pol: str, k, omega, h: float):
-    """(Y_up at y = h+, Y_down at y = h-, eps at the source) for arrays k, omega (omega > 0)."""
-    k = np.asarray(k, dtype=float)
-    omega = np.asarray(omega, dtype=float)
-    yi = stack.interfaces
-    media = stack.media
-    src = stack.region_of(h)
-    eps = [_eps(m, omega) for m in media]
-    kys = [_ky(e, omega, k) for e in eps]
-    Y0 = [_y_up_wave(pol, e, omega, q) for e, q in zip(eps, kys)]
-    # --- from the top half-space down to the interface above the source
-    Y = Y0[-1]                               # only an upward wave in the top half-space
-    for r in range(len(media) - 2, src, -1):  # layers strictly above the source region
-        d = yi[r] - yi[r - 1]
-        Y = _transfer_down(Y, Y0[r], kys[r], d)
-    if src < len(media) - 1:
-        Y_up = _transfer_down(Y, Y0[src], kys[src], yi[src] - h)
-    else:
-        Y_up = Y0[src]
-    # --- from the bottom half-space up to the interface below the source
-    Y = -Y0[0]                               # only a downward wave in the bottom half-space
-    for r in range(1, src):
-        d = yi[r] - yi[r - 1]
-        Y = _transfer_up(Y, Y0[r], kys[r], d)
-    if src > 0:
-        Y_dn = _transfer_up(Y, Y0[src], kys[src], h - yi[src - 1])
-    else:
-        Y_dn = -Y0[src]
-    return Y_up, Y_dn, eps[src]
-
-
-def _transfer_down(Y_top, Yc, ky, d):
-    """Admittance at distance d below a point where it is Y_top, inside a medium.
-
-    With Y = Yc (1 - r)/(1 + r), r(y - d) = r(y) exp(2 i k_y d): |exp| <= 1, stable.
-    """
-    r = (Yc - Y_top) / (Yc + Y_top)
-    r = r * np.exp(2j * ky * d)
-    return Yc * (1 - r) / (1 + r)
-
-
-def _transfer_up(Y_bot, Yc, ky, d):
-    """Admittance at distance d above a point where it is Y_bot (downward wave primary)."""
-    Yd = -Yc
-    r = (Yd - Y_bot) / (Yd + Y_bot)
-    r = r * np.exp(2j * ky * d)
-    return Yd * (1 - r) / (1 + r)
-
+__all__ = ["Stack", "MovingLineSource", "sheet_power", "PlanarResult", "PlanarReference", "Bulk1D"]
 
 # --------------------------------------------------------------------- sources
 
@@ -288,77 +143,6 @@ def sheet_power(stack: Stack, source: MovingLineSource, k, omega):
     return S_up - S_dn, S_up, -S_dn
 
 
-# --------------------------------------------------------------------- integration
-
-_GK_X = np.array([0.991455371120813, 0.949107912342759, 0.864864423359769, 0.741531185599394,
-                  0.586087235467691, 0.405845151377397, 0.207784955007898, 0.0])
-_GK_WK = np.array([0.022935322010529, 0.063092092629979, 0.104790010322250, 0.140653259715525,
-                   0.169004726639267, 0.190350578064785, 0.204432940075298, 0.209482141084728])
-_GK_WG = np.array([0.129484966168870, 0.279705391489277, 0.381830050505119, 0.417959183673469])
-# Gauss-Kronrod 7-15 nodes and weights (e.g. Piessens et al., QUADPACK, 1983; tabulated values)
-_NODES = np.concatenate([-_GK_X[:-1], _GK_X[::-1]])
-_WK = np.concatenate([_GK_WK[:-1], _GK_WK[::-1]])
-_WG_FULL = np.zeros(15)
-_WG_FULL[[1, 3, 5, 13, 11, 9]] = np.concatenate([_GK_WG[:3], _GK_WG[:3]])
-_WG_FULL[7] = _GK_WG[3]
-
-
-def adaptive_integral(f: Callable[[np.ndarray], np.ndarray], breakpoints: Sequence[float],
-                      rtol: float = 1e-9, atol: float = 0.0, max_intervals: int = 100000):
-    """Vectorised adaptive Gauss-Kronrod (7-15) integral over [b0, b_last].
-
-    ``f`` maps a 1D array of abscissae (n,) to values of shape (n_out, n); the
-    error is controlled on row 0 (the others are integrated on the same panels).
-    On every panel between breakpoints the variable x = p + (q - p)(1 - cos(pi u))/2
-    clusters nodes at both ends, which turns the integrable 1/sqrt singularities
-    at light-line crossings (k_y -> 0) into smooth integrands.  Returns
-    (integrals (n_out,), error estimate of row 0).
-    """
-    b = np.unique(np.asarray(breakpoints, dtype=float))
-    P, Q = b[:-1], b[1:]
-    # panels in u in [0, 1] of each breakpoint interval
-    owner = np.arange(P.size)
-    lo = np.zeros(P.size)
-    hi = np.ones(P.size)
-    done = None
-    done_err = 0.0
-    for _ in range(60):
-        mid = 0.5 * (lo + hi)
-        half = 0.5 * (hi - lo)
-        u = mid[:, None] + half[:, None] * _NODES[None, :]
-        pp, qq = P[owner][:, None], Q[owner][:, None]
-        x = pp + (qq - pp) * np.sin(0.5 * np.pi * u) ** 2       # = (1 - cos(pi u))/2
-        jac = (qq - pp) * 0.5 * np.pi * np.sin(np.pi * u)
-        fx = np.asarray(f(x.ravel()))
-        fx = fx.reshape(-1, x.shape[0], 15) * jac[None]
-        K = half[None, :] * (fx @ _WK)
-        G = half * (fx[0] @ _WG_FULL)
-        err = np.abs(K[0] - G)
-        if done is None:
-            done = np.zeros(K.shape[0])
-        est = abs(done[0] + K[0].sum())
-        tol = max(rtol * max(est, 1e-300), atol)
-        if done_err + err.sum() <= tol:             # global test: everything converged
-            done += K.sum(axis=1)
-            return done, done_err + err.sum()
-        # otherwise keep the panels whose error is small against the tolerance per panel
-        ok = (err <= tol / (4.0 * err.size)) | ((hi - lo) < 1e-12)
-        done += K[:, ok].sum(axis=1)
-        done_err += err[ok].sum()
-        if np.all(ok):
-            return done, done_err
-        nb = int(np.count_nonzero(~ok))
-        if 2 * nb > max_intervals:
-            done += K[:, ~ok].sum(axis=1)
-            done_err += err[~ok].sum()
-            return done, done_err
-        lo_b, hi_b, mid_b, own_b = lo[~ok], hi[~ok], mid[~ok], owner[~ok]
-        lo = np.concatenate([lo_b, mid_b])
-        hi = np.concatenate([mid_b, hi_b])
-        owner = np.concatenate([own_b, own_b])
-    return done, done_err
-
-
 # --------------------------------------------------------------------- the solver
 
 
@@ -418,7 +202,7 @@ class PlanarReference:
                  k_max: float | None = None,
                  vertical_form_factor: Callable[[np.ndarray], np.ndarray] | None = None):
         if not isinstance(stack, Stack):
-            raise ParameterError(f"stack = {stack!r}: expected fdtd.planar.Stack")
+            raise ParameterError(f"stack = {stack!r}: expected a Stack (fdtd.reference.planar.Stack)")
         if not isinstance(source, MovingLineSource):
             raise ParameterError(f"source = {source!r}: expected MovingLineSource")
         for m in stack.media:
@@ -493,7 +277,7 @@ class PlanarReference:
                 val = val * np.abs(self.form_factor(k[ok])) ** 2
             if self.vertical_form_factor is not None:
                 med = self.stack.media[self.src_region]
-                ky = _ky(_eps(med, w[ok]), w[ok], k[ok])
+                ky = ky_branch(permittivity(med, w[ok]), w[ok], k[ok])
                 val = val * np.real(self.vertical_form_factor(ky) ** 2)
             out[ok] = val
         return out
@@ -539,8 +323,8 @@ class PlanarReference:
         for m in self.stack.media:
             def g(k, m=m):
                 ww = self.omega_of(np.atleast_1d(k), branch)
-                return float((np.real(_eps(m, ww)) * ww * ww - np.atleast_1d(k) ** 2)[0])
-            e = np.real(_eps(m, w))
+                return float((np.real(permittivity(m, ww)) * ww * ww - np.atleast_1d(k) ** 2)[0])
+            e = np.real(permittivity(m, w))
             val = e * w * w - kk * kk
             idx = np.nonzero(np.sign(val[1:]) * np.sign(val[:-1]) < 0)[0]
             for i in idx:
@@ -548,7 +332,7 @@ class PlanarReference:
                     pts.append(refine(g, kk[i], kk[i + 1]))
         # guided-mode poles of the lossless stack: zeros of D = Y_up - Y_down (purely
         # imaginary where all waves at the source are evanescent)
-        lossless = _lossless(self.stack)
+        lossless = lossless_stack(self.stack)
         pol, h = self.source.polarization, self.source.height
 
         def D(k):
@@ -646,20 +430,6 @@ class PlanarReference:
         return res
 
 
-def _lossless_material(m: Material) -> Material:
-    """The material with every pole's damping set to zero (mode positions)."""
-    from dataclasses import replace as _replace
-
-    poles = tuple(_replace(p, gamma=0.0) if hasattr(p, "gamma") else p for p in m.poles)
-    return Material(m.eps_inf, poles, m.name)
-
-
-def _lossless(stack: Stack) -> Stack:
-    return Stack(_lossless_material(stack.bottom),
-                 tuple((_lossless_material(m), t) for m, t in stack.layers),
-                 _lossless_material(stack.top), stack.y0)
-
-
 # --------------------------------------------------------------------- 1D bulk
 
 
@@ -729,7 +499,7 @@ class Bulk1D:
         lo, hi = self._range(branch)
         kk = np.linspace(lo, hi, 200001)[1:-1]
         w = self.omega_of(kk, branch)
-        lossless = _lossless_material(self.material)
+        lossless = lossless_material(self.material)
         with np.errstate(divide="ignore", invalid="ignore"):
             e = np.real(np.asarray(lossless.permittivity(w, kk if lossless.is_nonlocal else None),
                                    dtype=complex))

@@ -1,0 +1,191 @@
+"""Layered media along y: the stack, and its admittances seen from a sheet at height h.
+
+A :class:`Stack` is a bottom half-space, any number of layers and a top
+half-space, each a (possibly dispersive, lossy) :class:`~fdtd.media.materials.Material`.
+For a field component ``exp(i (k_x x - omega t))`` the media above and below a
+height h act on a sheet there through the admittances ``Y = H_t / E_t`` at
+y = h+ and h- (:func:`admittances`; ``(E_t, H_t) = (E_x, H_z)`` for TE_z,
+``(E_z, H_x)`` for TM_z).  They are built from the outgoing half-spaces by a
+reflection recursion (:func:`transfer_down`, :func:`transfer_up`) in which every
+propagation factor is ``exp(2 i k_y d)`` with ``Im k_y >= 0``, so evanescent
+waves never overflow.  Normalized units (c = eps0 = mu0 = 1).  The sources on
+top, and the powers, are :mod:`fdtd.reference.planar`; the derivation is in
+DEVELOPERS.md, "Planar reference solver".
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, replace
+
+import numpy as np
+
+from fdtd import _checks
+from fdtd.errors import GeometryError, ParameterError
+from fdtd.media.materials import VACUUM, Material
+
+
+@dataclass(frozen=True)
+class Stack:
+    """Media stratified along y.
+
+    Parameters
+    ----------
+    bottom : Material
+        Half-space y < y0.
+    layers : sequence of (Material, thickness)
+        From bottom to top, starting at y0.
+    top : Material
+        Half-space above the last layer.
+    y0 : float
+        Position of the lowest interface.
+    """
+
+    bottom: Material = VACUUM
+    layers: tuple = ()
+    top: Material = VACUUM
+    y0: float = 0.0
+
+    def __post_init__(self) -> None:
+        lay = []
+        for k, item in enumerate(self.layers):
+            mat, t = item
+            if not isinstance(mat, Material):
+                raise ParameterError(f"layer {k} material {mat!r}: expected a Material")
+            lay.append((mat, _checks.positive(f"layer {k} thickness", t)))
+        object.__setattr__(self, "layers", tuple(lay))
+        for name in ("bottom", "top"):
+            if not isinstance(getattr(self, name), Material):
+                raise ParameterError(f"stack {name}: expected a Material")
+
+    @property
+    def interfaces(self) -> np.ndarray:
+        y = [self.y0]
+        for _m, t in self.layers:
+            y.append(y[-1] + t)
+        return np.array(y)
+
+    @property
+    def media(self) -> list[Material]:
+        return [self.bottom] + [m for m, _t in self.layers] + [self.top]
+
+    def region_of(self, y: float) -> int:
+        """Index into :attr:`media` of the region holding y (an interface is refused)."""
+        yi = self.interfaces
+        if np.any(np.isclose(y, yi, rtol=0, atol=1e-12)):
+            raise GeometryError(f"source height y = {y!r} lies on an interface {yi.tolist()}")
+        return int(np.searchsorted(yi, y))
+
+    @classmethod
+    def half_space(cls, material: Material, surface: float = 0.0) -> Stack:
+        """``material`` below y = surface, vacuum above."""
+        return cls(material, (), VACUUM, surface)
+
+    @classmethod
+    def slab(cls, material: Material, thickness: float, top_surface: float = 0.0) -> Stack:
+        """A slab of ``material`` with its top at ``top_surface``, vacuum on both sides."""
+        return cls(VACUUM, ((material, thickness),), VACUUM, top_surface - thickness)
+
+    @classmethod
+    def slot(cls, lower: Material, upper: Material, gap: float, lower_surface: float = 0.0,
+             lower_thickness: float | None = None, upper_thickness: float | None = None) -> Stack:
+        """A vacuum gap of width ``gap`` between two media (half-spaces unless thicknesses given)."""
+        layers = []
+        bottom = lower
+        if lower_thickness is not None:
+            bottom = VACUUM
+            layers.append((lower, lower_thickness))
+        layers.append((VACUUM, gap))
+        top = upper
+        if upper_thickness is not None:
+            layers.append((upper, upper_thickness))
+            top = VACUUM
+        y0 = lower_surface - (lower_thickness or 0.0)
+        return cls(bottom, tuple(layers), top, y0)
+
+
+def ky_branch(eps, omega, k):
+    """k_y = sqrt(eps omega^2 - k^2) on the branch Im >= 0 (and Re >= 0 when real)."""
+    ky = np.sqrt(eps * omega * omega - k * k + 0j)
+    ky = np.where(ky.imag < 0, -ky, ky)
+    # on a light line (k_y -> 0, which rounding can hit exactly near a breakpoint): keep
+    # |k_y| above 1e-12 of the wavenumber scale; such nodes carry negligible weight
+    floor = 1e-12 * (np.abs(k) + np.abs(omega) + 1e-300)
+    return np.where(np.abs(ky) < floor, floor * (1 + 1j) / np.sqrt(2), ky)
+
+
+def permittivity(material: Material, omega) -> np.ndarray:
+    """Complex eps of ``material`` at the angular frequencies ``omega`` (any shape); inf on a
+    lossless resonance, without a warning."""
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.asarray(material.permittivity(np.asarray(omega, dtype=float)), dtype=complex)
+
+
+def _y_up_wave(pol, eps, omega, ky):
+    """Admittance H_t/E_t of an upward (+k_y) wave: TE -omega eps/k_y, TM k_y/omega."""
+    return -omega * eps / ky if pol == "te" else ky / omega
+
+
+def admittances(stack: Stack, pol: str, k, omega, h: float):
+    """Admittances seen from a sheet at height ``h`` (not on an interface).
+
+    ``pol`` is "te" or "tm"; ``k`` (1/ell) and ``omega`` (c/ell, > 0) broadcast to
+    a common shape S.  Returns ``(Y_up at y = h+, Y_down at y = h-, eps at the
+    source)``, each complex of shape S."""
+    k = np.asarray(k, dtype=float)
+    omega = np.asarray(omega, dtype=float)
+    yi = stack.interfaces
+    media = stack.media
+    src = stack.region_of(h)
+    eps = [permittivity(m, omega) for m in media]
+    kys = [ky_branch(e, omega, k) for e in eps]
+    Y0 = [_y_up_wave(pol, e, omega, q) for e, q in zip(eps, kys)]
+    # --- from the top half-space down to the interface above the source
+    Y = Y0[-1]                               # only an upward wave in the top half-space
+    for r in range(len(media) - 2, src, -1):  # layers strictly above the source region
+        d = yi[r] - yi[r - 1]
+        Y = transfer_down(Y, Y0[r], kys[r], d)
+    if src < len(media) - 1:
+        Y_up = transfer_down(Y, Y0[src], kys[src], yi[src] - h)
+    else:
+        Y_up = Y0[src]
+    # --- from the bottom half-space up to the interface below the source
+    Y = -Y0[0]                               # only a downward wave in the bottom half-space
+    for r in range(1, src):
+        d = yi[r] - yi[r - 1]
+        Y = transfer_up(Y, Y0[r], kys[r], d)
+    if src > 0:
+        Y_dn = transfer_up(Y, Y0[src], kys[src], h - yi[src - 1])
+    else:
+        Y_dn = -Y0[src]
+    return Y_up, Y_dn, eps[src]
+
+
+def transfer_down(Y_top, Yc, ky, d):
+    """Admittance at distance d below a point where it is Y_top, inside a medium.
+
+    With Y = Yc (1 - r)/(1 + r), r(y - d) = r(y) exp(2 i k_y d): |exp| <= 1, stable.
+    """
+    r = (Yc - Y_top) / (Yc + Y_top)
+    r = r * np.exp(2j * ky * d)
+    return Yc * (1 - r) / (1 + r)
+
+
+def transfer_up(Y_bot, Yc, ky, d):
+    """Admittance at distance d above a point where it is Y_bot (downward wave primary)."""
+    Yd = -Yc
+    r = (Yd - Y_bot) / (Yd + Y_bot)
+    r = r * np.exp(2j * ky * d)
+    return Yd * (1 - r) / (1 + r)
+
+
+def lossless_material(m: Material) -> Material:
+    """The material with every pole's damping set to zero (mode positions)."""
+    poles = tuple(replace(p, gamma=0.0) if hasattr(p, "gamma") else p for p in m.poles)
+    return Material(m.eps_inf, poles, m.name)
+
+
+def lossless_stack(stack: Stack) -> Stack:
+    """The stack with every medium lossless (:func:`lossless_material`)."""
+    return Stack(lossless_material(stack.bottom),
+                 tuple((lossless_material(m), t) for m, t in stack.layers),
+                 lossless_material(stack.top), stack.y0)
