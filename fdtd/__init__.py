@@ -13,7 +13,7 @@ from fdtd.errors import (GapwakeError, GeometryError, InstabilityError, Paramete
 from fdtd.media.materials import VACUUM, DrudePole, LorentzPole, Material, NonlocalLorentzPole, lorentz_material
 
 __all__ = [
-    "__version__", "CPML", "PEC", "Periodic", "GapwakeError", "GeometryError", "InstabilityError",
+    "__version__", "CPML", "PEC", "Periodic", "Bloch", "GapwakeError", "GeometryError", "InstabilityError",
     "ParameterError", "ShapeError", "StabilityError", "Everywhere", "HalfSpace", "Polygon",
     "Rectangle", "Slab", "Grid", "VACUUM", "DrudePole", "LorentzPole", "NonlocalLorentzPole", "Material",
     "lorentz_material", "Model", "Solver", "ContinuousWave", "GaussianPulse", "PrescribedCurrent",
@@ -22,7 +22,7 @@ __all__ = [
 
 #: name -> module that defines it (imported on first access)
 _LAZY = {
-    "CPML": "space.edges", "PEC": "space.edges", "Periodic": "space.edges",
+    "CPML": "space.edges", "PEC": "space.edges", "Periodic": "space.edges", "Bloch": "space.edges",
     "Everywhere": "space.geometry", "HalfSpace": "space.geometry", "Polygon": "space.geometry",
     "Rectangle": "space.geometry", "Slab": "space.geometry", "Grid": "space.grid",
     "Model": "space.model", "Solver": "solver.stepper",

@@ -16,7 +16,13 @@ satisfies exactly (to round-off), for every step,
   operators (derivation in docs/theory/energy-ledger.md).
 
 Outflow into the absorbing layers is what the layers absorb once the field
-has died down there.  The residual
+has died down there.
+
+Complex fields (a Bloch edge on x) take the Hermitian form of every term:
+``|E|^2``, ``Re conj(H^{n-1/2}) H^{n+1/2}``, ``|dP|^2``, work
+``-dt Re sum conj(J) . Ebar dV`` and flux ``Re conj(Ebar) H``.  The local terms
+are the sums of the real-field terms over real and imaginary parts; the H term
+forms ``H^{n+1/2}`` with the phased curl (docs/theory/bloch-cell.md).  The residual
 ``(T^n - T^0) - sum(W_src - B - F)`` is printed relative to the largest
 ledger entry.
 """
@@ -142,10 +148,14 @@ class EnergyLedger:
     def flux_accumulate(self, before: list[np.ndarray]) -> None:
         """Add dt * outward Poynting flux of this step (called after the step)."""
         f = self.solver.fields
+        cplx = self.solver.complex_fields
         tot = 0.0
         for (ec, hc, ei, hi, w), e0 in zip(self._flux, before):
             ebar = 0.5 * (e0 + f[ec].reshape(-1)[ei])
-            tot += float(np.dot(w * ebar, f[hc].reshape(-1)[hi]))
+            if cplx:
+                tot += float(np.vdot(w * ebar, f[hc].reshape(-1)[hi]).real)
+            else:
+                tot += float(np.dot(w * ebar, f[hc].reshape(-1)[hi]))
         self.outflow += self.solver.dt * tot
 
     # -- stored energy ---------------------------------------------------
@@ -168,10 +178,15 @@ class EnergyLedger:
             else:
                 E2, mix2 = E, mix
                 r = self.ranges[c][0] + self.ranges[c][1]
-            a, b = ek.e_terms(E2, mix2, P, Po, t["eps_inf"], t["n_poles"], t["kin"], t["pot"],
-                              t["gid"], s.dt, r[0], r[1], r[2], r[3], wp)
-            we += a
-            wx += b
+            # complex fields: the local terms are quadratic forms with real coefficients,
+            # so their Hermitian value is the sum over the real and the imaginary parts
+            parts = ((E2.real, P.real, Po.real), (E2.imag, P.imag, Po.imag)) if s.complex_fields \
+                else ((E2, P, Po),)
+            for E_, P_, Po_ in parts:
+                a, b = ek.e_terms(E_, mix2, P_, Po_, t["eps_inf"], t["n_poles"], t["kin"], t["pot"],
+                                  t["gid"], s.dt, r[0], r[1], r[2], r[3], wp)
+                we += a
+                wx += b
             for slot, mixn, _rows, _Q, _Pold, diag in s.nonlocal_entries.get(c, ()):
                 # gradient energy of a nonlocal pole (kernels/nonlocal_pole.py)
                 nlk.gradient_energy(P, Po, slot, mixn, t["nlg"], t["kappa"], diag, s.nonlocal_inv_h2,
@@ -179,15 +194,15 @@ class EnergyLedger:
         f = s.fields
         if g.polarization == "1d":
             q = self.ranges["Hz"][0]
-            wh = ek.h_terms_1d(f["Hz"], f["Ey"], s.dt / g.spacing[0], q[0], q[1])
+            wh = ek.h_terms_1d(f["Hz"], f["Ey"], s.dt / g.spacing[0], q[0], q[1], s.wrap_phase)
         elif g.polarization == "te":
             r = self.ranges["Hz"]
             wh = ek.h_terms_te(f["Hz"], f["Ex"], f["Ey"], s.dt / g.spacing[0], s.dt / g.spacing[1],
-                               r[0][0], r[0][1], r[1][0], r[1][1])
+                               r[0][0], r[0][1], r[1][0], r[1][1], s.wrap_phase)
         else:
             rx, ry = self.ranges["Hx"], self.ranges["Hy"]
             wh = ek.h_terms_tm(f["Hx"], f["Hy"], f["Ez"], s.dt / g.spacing[0], s.dt / g.spacing[1],
-                               np.array(rx[0] + rx[1]), np.array(ry[0] + ry[1]))
+                               np.array(rx[0] + rx[1]), np.array(ry[0] + ry[1]), s.wrap_phase)
         return we * dV, wh * dV, wx * dV, wp * dV
 
     def bath_heat(self) -> np.ndarray:

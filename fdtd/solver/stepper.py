@@ -7,6 +7,11 @@ Time levels: after ``step_count = n`` steps the solver holds ``E^n`` (time
 2. calls the compiled stepper (H to n+1/2, P to n+1, E to n+1),
 3. injects ``-dt J / eps_inf`` and books source work, bath heat and outflow.
 
+With a Bloch edge on x (:class:`fdtd.space.edges.Bloch`) every field,
+polarization and CPML memory array is complex128, the kernels receive the wrap
+factor exp(i theta) (1.0, a float, otherwise), sources may hand complex
+currents, and energies and work are Hermitian (docs/theory/bloch-cell.md).
+
 The time loop with stop criteria, progress and guard rails is
 :meth:`Solver.advance`.
 """
@@ -37,19 +42,23 @@ from fdtd.space.stability import courant_number
 SMALL_GRID_CELLS = 250_000
 
 
-def staggered_zeros(shape, k: int) -> np.ndarray:
-    """Zeroed float64 array whose start is offset by ``k`` cache lines (64 B).
+def staggered_zeros(shape, k: int, dtype=np.float64) -> np.ndarray:
+    """Zeroed array (float64 or complex128) whose start is offset by ``k`` cache lines (64 B).
 
     Large ``np.zeros`` arrays all begin at the same offset within a page; many
     streams then collide in the cache.  Offsetting each array's start differently
     removes that (measured: offsetting array starts by different multiples of 64 bytes
-    gave 1.2-2.2x).
+    gave 1.2-2.2x).  The buffer is allocated in bytes, so the start lands on a
+    cache-line boundary plus ``64 k`` bytes for any item size dividing 64.
     """
+    dtype = np.dtype(dtype)
+    item = dtype.itemsize
+    if 64 % item:
+        raise ParameterError(f"staggered_zeros dtype = {dtype}: expected an item size dividing 64 bytes")
     size = int(np.prod(shape))
-    buf = np.zeros(size + 8 * (k % 32) + 16)
-    shift = ((-buf.ctypes.data) % 64) // 8
-    start = shift + 8 * (k % 32)
-    return buf[start:start + size].reshape(shape)
+    buf = np.zeros(size * item + 64 * (k % 32) + 128, dtype=np.uint8)
+    start = (-buf.ctypes.data) % 64 + 64 * (k % 32)
+    return buf[start:start + size * item].view(dtype).reshape(shape)
 
 
 class Solver:
@@ -97,24 +106,30 @@ class Solver:
                 f"{numba.config.NUMBA_NUM_THREADS} (NUMBA_NUM_THREADS)")
         self.check_every = _checks.positive_int("check_every", check_every)
         self.step_count = 0
+        # Bloch edge on x: complex state, wrap factor exp(i theta) of complex dtype;
+        # otherwise real state and the float 1.0 (the kernels' real specialization)
+        self.complex_fields = model.complex_fields
+        self.dtype = np.dtype(np.complex128 if self.complex_fields else np.float64)
+        self.wrap_phase = complex(model.wrap_factor) if self.complex_fields else 1.0
 
         # ---- state ---------------------------------------------------------
         k = 0
+        dtype = self.dtype
         self.fields: dict[str, np.ndarray] = {}
         for c in g.e_components + g.h_components:
-            self.fields[c] = staggered_zeros(g.shape, k)
+            self.fields[c] = staggered_zeros(g.shape, k, dtype)
             k += 1
         ns = model.max_poles
         self.polarization: dict[str, tuple[np.ndarray, np.ndarray]] = {}
         pshape = (ns,) + ((1,) + g.shape if g.dims == 1 else g.shape)
         for c in g.e_components:
             if ns:
-                P = staggered_zeros(pshape, k)
-                Po = staggered_zeros(pshape, k + 1)
+                P = staggered_zeros(pshape, k, dtype)
+                Po = staggered_zeros(pshape, k + 1, dtype)
                 k += 2
             else:
-                P = np.zeros((1, 1, 1))
-                Po = np.zeros((1, 1, 1))
+                P = np.zeros((1, 1, 1), dtype)
+                Po = np.zeros((1, 1, 1), dtype)
             self.polarization[c] = (P, Po)
         n_gid = max(len(model.pole_labels), 1)
         n_rows = g.shape[0] if g.dims == 2 else 1
@@ -171,18 +186,19 @@ class Solver:
         g = self.grid
         pol = g.polarization
         npx = self.profiles[0].n_pml
+        dtype = self.dtype
         if pol == "1d":
             for key in ("hz_x", "ey_x"):
-                self.psi[key] = np.zeros(npx)
+                self.psi[key] = np.zeros(npx, dtype)
             return
         nx, ny = g.shape
         npy = self.profiles[1].n_pml
         names_x = ("hz_x", "ey_x") if pol == "te" else ("hy_x", "ez_x")
         names_y = ("hz_y", "ex_y") if pol == "te" else ("hx_y", "ez_y")
         for key in names_x:
-            self.psi[key] = np.zeros((npx, ny))
+            self.psi[key] = np.zeros((npx, ny), dtype)
         for key in names_y:
-            self.psi[key] = np.zeros((nx, npy))
+            self.psi[key] = np.zeros((nx, npy), dtype)
 
     def _setup_nonlocal(self) -> None:
         """Work arrays of the nonlocal poles: per E component, the slots that hold
@@ -286,6 +302,7 @@ class Solver:
         f = self.fields
         psi = self.psi
         t = self._tally
+        ph = self.wrap_phase
         if g.polarization == "te":
             Px, Pxo = self.polarization["Ex"]
             Py, Pyo = self.polarization["Ey"]
@@ -293,31 +310,38 @@ class Solver:
             step_te(f["Ex"], f["Ey"], f["Hz"], Px, Pxo, Py, Pyo, self._segs["Ex"], self._segs["Ey"],
                     self._coef, self._prof[0], self._prof[1], psi["hz_x"], psi["ey_x"], psi["hz_y"],
                     psi["ex_y"], self.threads, t, self.bath_rows, self._gid, self._bathc,
-                    self._tally_boxes["Ex"], self._tally_boxes["Ey"])
+                    self._tally_boxes["Ex"], self._tally_boxes["Ey"], ph)
         elif g.polarization == "tm":
             Pz, Pzo = self.polarization["Ez"]
             numba.set_num_threads(self.threads)
             step_tm(f["Ez"], f["Hx"], f["Hy"], Pz, Pzo, self._segs["Ez"], self._coef, self._prof[0],
                     self._prof[1], psi["hy_x"], psi["ez_x"], psi["hx_y"], psi["ez_y"], self.threads,
-                    t, self.bath_rows, self._gid, self._bathc, self._tally_boxes["Ez"])
+                    t, self.bath_rows, self._gid, self._bathc, self._tally_boxes["Ez"], ph)
         else:
             Py, Pyo = self.polarization["Ey"]
             step_1d(f["Ey"], f["Hz"], Py, Pyo, self._segs["Ey"], self._coef, self._prof[0],
                     psi["hz_x"], psi["ey_x"], t, self.bath_rows[0], self._gid, self._bathc,
-                    self._tally_boxes["Ey"])
+                    self._tally_boxes["Ey"], ph)
 
     def step(self, n: int = 1) -> None:
         """Advance ``n`` steps (no guard rails; see :meth:`run`)."""
         dt = self.dt
         inv_eps = self.tables["inv_eps"]
         dV = self.grid.cell_volume
+        jtype = self.dtype
+        cplx = self.complex_fields
         for _ in range(n):
             t_half = (self.step_count + 0.5) * dt
             inj = []
             for src in self.sources:
                 for comp, flat, J in src.currents(t_half):
                     if flat.size:
-                        inj.append((comp, flat, np.asarray(J, dtype=float),
+                        J = np.asarray(J)
+                        if not cplx and np.iscomplexobj(J):
+                            raise ParameterError(
+                                f"source {src!r} handed a complex current to {comp} in a real run: "
+                                "complex currents need a Bloch edge on x (fdtd.space.edges.Bloch)")
+                        inj.append((comp, flat, np.asarray(J, dtype=jtype),
                                     self.fields[comp].reshape(-1)[flat]))
             flux_before = self.ledger.flux_gather() if self.ledger is not None else None
             for obs in self.observers:
@@ -329,7 +353,11 @@ class Solver:
                 np.subtract.at(ef, flat, dt * J * inv_eps[self._flat_mix[comp][flat]])
             for comp, flat, J, e0 in inj:
                 e1 = self.fields[comp].reshape(-1)[flat]
-                work -= dt * float(np.dot(J, 0.5 * (e0 + e1))) * dV
+                if cplx:
+                    # Hermitian work -dt Re sum conj(J) . Ebar dV (docs/theory/bloch-cell.md)
+                    work -= dt * float(np.vdot(J, 0.5 * (e0 + e1)).real) * dV
+                else:
+                    work -= dt * float(np.dot(J, 0.5 * (e0 + e1))) * dV
             self.source_work += work
             self.injected_abs += abs(work)
             if self.ledger is not None:
@@ -342,9 +370,15 @@ class Solver:
 
     # ------------------------------------------------------------------
     def field_energy_measure(self) -> float:
-        """0.5 * sum (E^2 + H^2) dV over the whole grid (a cheap size measure)."""
+        """0.5 * sum (|E|^2 + |H|^2) dV over the whole grid (a cheap size measure).
+
+        Complex fields are summed as their real and imaginary parts (a float64
+        view of twice the length, no copy).
+        """
         tot = 0.0
         for a in self.fields.values():
+            if self.complex_fields:
+                a = a.view(np.float64)
             tot += ek.sum_of_squares(a.reshape(a.shape[0], -1) if a.ndim > 1 else a.reshape(1, -1))
         return 0.5 * tot * self.grid.cell_volume
 

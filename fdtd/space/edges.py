@@ -1,4 +1,9 @@
-r"""Edges of the domain: periodic, perfect electric conductor, and CPML.
+r"""Edges of the domain: periodic, Bloch-periodic, perfect electric conductor, and CPML.
+
+Bloch-periodic edge (x axis only): the fields obey ``u(x + L) = e^{i theta} u(x)``
+with ``theta = k0 L``, so the cell samples the wavenumbers ``k0 + 2 pi m / L``.
+The solver then carries complex fields; the boundary condition, the phased
+source mapping and the energy bookkeeping are in docs/theory/bloch-cell.md.
 
 CPML (convolutional perfectly matched layer; J. A. Roden and S. D. Gedney,
 "Convolution PML (CPML): an efficient FDTD implementation of the CFS-PML for
@@ -28,6 +33,7 @@ normalized units).  Behind every layer sits a conducting wall.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -47,6 +53,40 @@ class Periodic(Boundary):
     """Periodic edge (both sides of the axis must be periodic)."""
 
     kind = "periodic"
+
+
+@dataclass(frozen=True)
+class Bloch(Periodic):
+    """Bloch-periodic edge: ``u(x + L) = exp(i phase) u(x)`` (both ends of the x axis).
+
+    Parameters
+    ----------
+    phase : float
+        theta = k0 L in radians (any finite number; only theta modulo 2 pi matters).
+        ``Bloch(0.0)`` is the ordinary periodic edge run with complex fields.
+
+    Allowed on the x axis of 1D and 2D models, with the same phase on both ends;
+    refused on y and beside a spatially dispersive (nonlocal) pole
+    (docs/theory/bloch-cell.md).
+    """
+
+    phase: float = 0.0
+
+    kind = "bloch"
+
+    def __post_init__(self) -> None:
+        _checks.finite_number("Bloch phase", self.phase)
+
+    @property
+    def wrap_phase(self) -> float:
+        """theta reduced to [-pi, pi] (``math.remainder``; exactly 0 for multiples of 2 pi)."""
+        return math.remainder(float(self.phase), 2.0 * math.pi)
+
+    @property
+    def wrap_factor(self) -> complex:
+        """exp(i theta): the factor a field picks up from one cell to the next along +x."""
+        th = self.wrap_phase
+        return complex(math.cos(th), math.sin(th))
 
 
 @dataclass(frozen=True)
@@ -97,14 +137,15 @@ class CPML(Boundary):
         _checks.non_negative("CPML alpha_order", self.alpha_order)
 
 
-BOUNDARY_KINDS = {"periodic": Periodic, "pec": PEC, "cpml": CPML}
+BOUNDARY_KINDS = {"periodic": Periodic, "bloch": Bloch, "pec": PEC, "cpml": CPML}
 
 
 def normalize_edges(edges, dims: int) -> tuple[tuple[Boundary, Boundary], ...]:
     """Turn a user spec into ``((lo, hi), ...)`` per axis, with checks.
 
     Accepts a single Boundary (used everywhere), a sequence per axis, or a
-    sequence of (lo, hi) pairs.
+    sequence of (lo, hi) pairs.  A Bloch edge is accepted on the x axis only,
+    on both ends with one phase.
     """
     if isinstance(edges, Boundary):
         edges = [edges] * dims
@@ -116,9 +157,19 @@ def normalize_edges(edges, dims: int) -> tuple[tuple[Boundary, Boundary], ...]:
         pair = (e, e) if isinstance(e, Boundary) else tuple(e)
         if len(pair) != 2 or not all(isinstance(b, Boundary) for b in pair):
             raise ParameterError(f"edges for axis {'xy'[a]} = {e!r}: expected a Boundary or (lo, hi)")
-        if (pair[0].kind == "periodic") != (pair[1].kind == "periodic"):
+        if isinstance(pair[0], Periodic) != isinstance(pair[1], Periodic):
             raise ParameterError(
                 f"edges for axis {'xy'[a]}: periodic must be set on both sides, got {pair}")
+        if isinstance(pair[0], Bloch) or isinstance(pair[1], Bloch):
+            if a != 0:
+                raise ParameterError(
+                    f"edges for axis y = {e!r}: a Bloch edge is not allowed on y: expected it on "
+                    "the x axis only (Periodic, PEC or CPML on y)")
+            if not (isinstance(pair[0], Bloch) and isinstance(pair[1], Bloch)
+                    and pair[0].wrap_phase == pair[1].wrap_phase):
+                raise ParameterError(
+                    f"edges for axis x = {pair!r}: a Bloch edge must be set on both ends of x with "
+                    "the same phase: expected Bloch(theta) or (Bloch(theta), Bloch(theta))")
         out.append(pair)
     return tuple(out)
 

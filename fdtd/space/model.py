@@ -23,7 +23,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from fdtd import _checks
-from fdtd.space.edges import CPML, AxisProfile, Boundary, axis_profile, normalize_edges
+from fdtd.space.edges import CPML, AxisProfile, Bloch, Boundary, Periodic, axis_profile, normalize_edges
 from fdtd.errors import GeometryError, ParameterError, StabilityError
 from fdtd.space.geometry import Placement, Region, cell_map_fractions, material_fractions
 from fdtd.space.grid import Grid
@@ -107,8 +107,8 @@ class Model:
     background : Material
         Medium outside all regions (default vacuum).
     edges : Boundary or per-axis spec
-        ``CPML(...)``, ``PEC()``, ``Periodic()``, one per axis or ``(lo, hi)``
-        pairs; default CPML on every side.
+        ``CPML(...)``, ``PEC()``, ``Periodic()``, ``Bloch(theta)`` (x only), one per
+        axis or ``(lo, hi)`` pairs; default CPML on every side.
     material_map : int array of the grid shape, optional
         Instead of regions: ``material_map[i, j]`` indexes ``materials`` and
         fills cell (i, j) (see :func:`fdtd.geometry.cell_map_fractions`).
@@ -126,7 +126,7 @@ class Model:
         self.grid = grid
         self.edges: tuple[tuple[Boundary, Boundary], ...] = normalize_edges(
             CPML() if edges is None else edges, grid.dims)
-        self.periodic = tuple(lo.kind == "periodic" for lo, _hi in self.edges)
+        self.periodic = tuple(isinstance(lo, Periodic) for lo, _hi in self.edges)
         pls = []
         for p in placements:
             if isinstance(p, Placement):
@@ -193,6 +193,12 @@ class Model:
         self.max_poles = max((len(m.poles) for m in self.mixtures), default=0)
         self._used_mixtures = sorted(set().union(*(np.unique(self.mix_maps[c]).tolist()
                                                    for c in grid.e_components)))
+        if self.bloch is not None and self.nonlocal_pole:
+            raise ParameterError(
+                f"edges for axis x = {self.edges[0]!r} with a spatially dispersive (nonlocal) pole on "
+                "the grid is not allowed: the pole's Laplacian reads across the x wrap and would need "
+                "the Bloch phase too, which it does not carry; expected Periodic() on x, or a "
+                "material without a NonlocalLorentzPole")
 
     # ------------------------------------------------------------------
     def _mixtures_from_counts(self, counts: np.ndarray, n_samples: int) -> np.ndarray:
@@ -251,6 +257,23 @@ class Model:
         raise ParameterError(f"pole id {gid} is not on this model")
 
     # ------------------------------------------------------------------
+    @property
+    def bloch(self) -> Bloch | None:
+        """The Bloch edge of the x axis, or None (docs/theory/bloch-cell.md)."""
+        lo = self.edges[0][0]
+        return lo if isinstance(lo, Bloch) else None
+
+    @property
+    def complex_fields(self) -> bool:
+        """True when the solver must carry complex fields (a Bloch edge on x)."""
+        return self.bloch is not None
+
+    @property
+    def wrap_factor(self) -> complex:
+        """exp(i theta) of the Bloch edge on x (1 without one)."""
+        b = self.bloch
+        return b.wrap_factor if b is not None else 1.0 + 0.0j
+
     @property
     def dispersive(self) -> bool:
         return self.max_poles > 0

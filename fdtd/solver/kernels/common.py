@@ -31,9 +31,13 @@ def update_e_row(e_row, P, Po, i, curl, dsum, seg_lo, seg_hi, seg_start, seg_sto
         P^{n+1} = c1 P^n + c2 P^{n-1} + c3 E^n
         E^{n+1} = E^n + inv_eps (curl - sum_s (P_s^{n+1} - P_s^n))
 
-    If ``tally``, adds ``bathc[m, s] * (P^{n+1} - P^{n-1})^2`` over
+    If ``tally``, adds ``bathc[m, s] * |P^{n+1} - P^{n-1}|^2`` over
     ``t0 <= j < t1`` to ``bath_row[gid[m, s]]`` (heat handed to the bath,
     scaled later by dV / (4 dt)).
+
+    The arrays ``e_row, curl, dsum, P, Po`` are all float64 (ordinary runs) or
+    all complex128 (Bloch cells, docs/theory/bloch-cell.md); numba compiles one
+    specialization per dtype.  ``bath_row`` is float64 in both.
     """
     for k in range(seg_lo, seg_hi):
         j0 = seg_start[k]
@@ -70,7 +74,8 @@ def update_e_row(e_row, P, Po, i, curl, dsum, seg_lo, seg_hi, seg_start, seg_sto
                     ds[j] += pnew - pn
                     if j >= lo and j < hi:
                         d = pnew - pold
-                        acc += d * d
+                        # |d|^2: d * d for real fields (same bits), Re(d conj d) for complex
+                        acc += (d * d.conjugate()).real
                 bath_row[gid[m, s]] += bathc[m, s] * acc
             else:
                 for j in range(nj):

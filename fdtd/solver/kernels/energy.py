@@ -14,6 +14,12 @@ pieces from the state at the start of step n (E^n, H^{n-1/2}, P^n, P^{n-1});
 ``H^{n+1/2}`` is formed on the fly with the plain (non-CPML) Yee update,
 valid inside the ledger box.  Arrays are 2D ``[row, col]``; a 1D grid is
 passed as a single row.
+
+Complex fields (Bloch cell, docs/theory/bloch-cell.md): :func:`e_terms` is
+called on the real and the imaginary parts and the results added; the H terms
+take complex arrays and the wrap factor ``wrap_phase = exp(i theta)`` of the x
+axis (1.0 for real fields, where they reduce to the real formulas bit for bit)
+and return ``sum Re(conj(H^{n-1/2}) H^{n+1/2}) / 2``.
 """
 
 from __future__ import annotations
@@ -48,45 +54,62 @@ def e_terms(E, mix, P, Po, eps_inf, n_poles, kin, pot, gid, dt, r0, r1, q0, q1, 
 
 
 @njit(**SERIAL)
-def h_terms_te(Hz, Ex, Ey, kx, ky, r0, r1, q0, q1):
-    """sum Hz^{n-1/2} Hz^{n+1/2} / 2 with the plain update; kx = dt/dx, ky = dt/dy."""
+def _re_conj_product(a, b):
+    """Re(conj(a) b); for real numbers a * b (the same bits)."""
+    return (a.conjugate() * b).real
+
+
+@njit(**SERIAL)
+def h_terms_te(Hz, Ex, Ey, kx, ky, r0, r1, q0, q1, wrap_phase):
+    """sum Re(conj(Hz^{n-1/2}) Hz^{n+1/2}) / 2 with the plain update; kx = dt/dx, ky = dt/dy.
+
+    ``wrap_phase``: exp(i theta) that Ey of row 0 carries when read from row nx-1.
+    """
     nx, ny = Hz.shape
     w = 0.0
     for i in range(r0, r1):
         ip = (i + 1) % nx
+        ph = wrap_phase if ip == 0 else 1.0
         for j in range(q0, q1):
             jp = (j + 1) % ny
             h = Hz[i, j]
-            hn = h - kx * (Ey[ip, j] - Ey[i, j]) + ky * (Ex[i, jp] - Ex[i, j])
-            w += 0.5 * h * hn
+            hn = h - kx * (ph * Ey[ip, j] - Ey[i, j]) + ky * (Ex[i, jp] - Ex[i, j])
+            w += 0.5 * _re_conj_product(h, hn)
     return w
 
 
 @njit(**SERIAL)
-def h_terms_tm(Hx, Hy, Ez, kx, ky, bx, by):
-    """sum (Hx Hx' + Hy Hy') / 2; bx, by = (r0, r1, q0, q1) boxes of Hx and Hy."""
+def h_terms_tm(Hx, Hy, Ez, kx, ky, bx, by, wrap_phase):
+    """sum Re(conj(Hx) Hx' + conj(Hy) Hy') / 2; bx, by = (r0, r1, q0, q1) boxes of Hx and Hy.
+
+    ``wrap_phase``: exp(i theta) that Ez of row 0 carries when read from row nx-1.
+    """
     nx, ny = Ez.shape
     w = 0.0
     for i in range(bx[0], bx[1]):
         for j in range(bx[2], bx[3]):
             jp = (j + 1) % ny
             h = Hx[i, j]
-            w += 0.5 * h * (h - ky * (Ez[i, jp] - Ez[i, j]))
+            w += 0.5 * _re_conj_product(h, h - ky * (Ez[i, jp] - Ez[i, j]))
     for i in range(by[0], by[1]):
         ip = (i + 1) % nx
+        ph = wrap_phase if ip == 0 else 1.0
         for j in range(by[2], by[3]):
             h = Hy[i, j]
-            w += 0.5 * h * (h + kx * (Ez[ip, j] - Ez[i, j]))
+            w += 0.5 * _re_conj_product(h, h + kx * (ph * Ez[ip, j] - Ez[i, j]))
     return w
 
 
 @njit(**SERIAL)
-def h_terms_1d(Hz, Ey, kx, q0, q1):
+def h_terms_1d(Hz, Ey, kx, q0, q1, wrap_phase):
+    """sum Re(conj(Hz^{n-1/2}) Hz^{n+1/2}) / 2 over [q0, q1) of a 1D grid."""
     n = Hz.shape[0]
     w = 0.0
     for i in range(q0, q1):
         h = Hz[i]
-        w += 0.5 * h * (h - kx * (Ey[(i + 1) % n] - Ey[i]))
+        ip = (i + 1) % n
+        ph = wrap_phase if ip == 0 else 1.0
+        w += 0.5 * _re_conj_product(h, h - kx * (ph * Ey[ip] - Ey[i]))
     return w
 
 

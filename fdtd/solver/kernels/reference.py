@@ -10,7 +10,12 @@ row-fusion and segment bookkeeping.  Not for production runs.
 ``cell`` dicts give per-node coefficient arrays built from the mixture maps
 (``inv_eps`` (shape of the grid) and ``c1, c2, c3`` (ns, *shape)).
 ``prof`` is a list of :class:`fdtd.boundaries.AxisProfile` (with dt folded
-in by the caller as in the kernels: ``ck``, ``b``, ``c`` keys per node type).
+in by the caller as in the kernels: ``ck``, ``b``, ``c`` keys per node type)
+and ``"wrap"``, the factor exp(i theta) a field picks up across the wrap of
+that axis (1 except on a Bloch-periodic x axis, docs/theory/bloch-cell.md):
+a forward difference at the last node reads ``wrap * a[0]``, a backward
+difference at node 0 reads ``conj(wrap) * a[-1]``.  State arrays are float64,
+or complex128 in a Bloch cell.
 """
 
 from __future__ import annotations
@@ -18,14 +23,22 @@ from __future__ import annotations
 import numpy as np
 
 
-def _diff_fwd(a, axis):
-    """a[k+1] - a[k] with wrap (forward difference onto the half node)."""
-    return np.roll(a, -1, axis=axis) - a
+def _diff_fwd(a, axis, wrap=1.0):
+    """a[k+1] - a[k] with wrap (forward difference onto the half node); a[n] = wrap * a[0]."""
+    nxt = np.roll(a, -1, axis=axis)
+    last = [slice(None)] * a.ndim
+    last[axis] = -1
+    nxt[tuple(last)] *= wrap
+    return nxt - a
 
 
-def _diff_bwd(a, axis):
-    """a[k] - a[k-1] with wrap (backward difference onto the integer node)."""
-    return a - np.roll(a, 1, axis=axis)
+def _diff_bwd(a, axis, wrap=1.0):
+    """a[k] - a[k-1] with wrap (backward difference onto the integer node); a[-1] = conj(wrap) a[n-1]."""
+    prev = np.roll(a, 1, axis=axis)
+    first = [slice(None)] * a.ndim
+    first[axis] = 0
+    prev[tuple(first)] *= np.conj(wrap)
+    return a - prev
 
 
 def _stretch(diff, axis, prof, node, psi_key, aux, ndim):
@@ -53,26 +66,29 @@ def _update_e(E, P, Po, cell, curl):
 
 def step_1d_numpy(state, cells, prof, aux):
     Ey, Hz = state["Ey"], state["Hz"]
-    Hz -= _stretch(_diff_fwd(Ey, 0), 0, prof[0], "half", "hz_x", aux, 1)
-    curl = -_stretch(_diff_bwd(Hz, 0), 0, prof[0], "int", "ey_x", aux, 1)
+    w = prof[0]["wrap"]
+    Hz -= _stretch(_diff_fwd(Ey, 0, w), 0, prof[0], "half", "hz_x", aux, 1)
+    curl = -_stretch(_diff_bwd(Hz, 0, w), 0, prof[0], "int", "ey_x", aux, 1)
     _update_e(Ey, state["P"]["Ey"], state["Po"]["Ey"], cells["Ey"], curl)
 
 
 def step_te_numpy(state, cells, prof, aux):
     Ex, Ey, Hz = state["Ex"], state["Ey"], state["Hz"]
-    Hz -= (_stretch(_diff_fwd(Ey, 0), 0, prof[0], "half", "hz_x", aux, 2)
+    w = prof[0]["wrap"]
+    Hz -= (_stretch(_diff_fwd(Ey, 0, w), 0, prof[0], "half", "hz_x", aux, 2)
            - _stretch(_diff_fwd(Ex, 1), 1, prof[1], "half", "hz_y", aux, 2))
     curl_x = _stretch(_diff_bwd(Hz, 1), 1, prof[1], "int", "ex_y", aux, 2)
-    curl_y = -_stretch(_diff_bwd(Hz, 0), 0, prof[0], "int", "ey_x", aux, 2)
+    curl_y = -_stretch(_diff_bwd(Hz, 0, w), 0, prof[0], "int", "ey_x", aux, 2)
     _update_e(Ex, state["P"]["Ex"], state["Po"]["Ex"], cells["Ex"], curl_x)
     _update_e(Ey, state["P"]["Ey"], state["Po"]["Ey"], cells["Ey"], curl_y)
 
 
 def step_tm_numpy(state, cells, prof, aux):
     Ez, Hx, Hy = state["Ez"], state["Hx"], state["Hy"]
+    w = prof[0]["wrap"]
     Hx -= _stretch(_diff_fwd(Ez, 1), 1, prof[1], "half", "hx_y", aux, 2)
-    Hy += _stretch(_diff_fwd(Ez, 0), 0, prof[0], "half", "hy_x", aux, 2)
-    curl = (_stretch(_diff_bwd(Hy, 0), 0, prof[0], "int", "ez_x", aux, 2)
+    Hy += _stretch(_diff_fwd(Ez, 0, w), 0, prof[0], "half", "hy_x", aux, 2)
+    curl = (_stretch(_diff_bwd(Hy, 0, w), 0, prof[0], "int", "ez_x", aux, 2)
             - _stretch(_diff_bwd(Hx, 1), 1, prof[1], "int", "ez_y", aux, 2))
     _update_e(Ez, state["P"]["Ez"], state["Po"]["Ez"], cells["Ez"], curl)
 
@@ -100,7 +116,8 @@ def twin_inputs(solver):
         dt = solver.dt
         prof.append({"ck_int": dt / d * p.inv_kappa_int, "ck_half": dt / d * p.inv_kappa_half,
                      "b_int": p.b_int, "c_int": dt * p.c_int,
-                     "b_half": p.b_half, "c_half": dt * p.c_half})
+                     "b_half": p.b_half, "c_half": dt * p.c_half,
+                     "wrap": solver.wrap_phase if a == 0 else 1.0})
     return cells, prof
 
 
@@ -116,6 +133,6 @@ def twin_state(solver):
             st["P"][c] = P.reshape((ns,) + g.shape).copy()
             st["Po"][c] = Po.reshape((ns,) + g.shape).copy()
         else:
-            st["P"][c] = np.zeros((1,) + g.shape)
-            st["Po"][c] = np.zeros((1,) + g.shape)
+            st["P"][c] = np.zeros((1,) + g.shape, solver.dtype)
+            st["Po"][c] = np.zeros((1,) + g.shape, solver.dtype)
     return st

@@ -28,6 +28,12 @@ nchunks : int
     Number of row blocks (the thread count).
 tally : bool; bath_rows : float64 (nx, n_gid); gid, bathc : (n_mix, ns)
 box_x, box_y : int64 (4,) row/column ranges of Ex / Ey where the bath is tallied.
+wrap_phase : float64 or complex128
+    exp(i theta) of a Bloch-periodic x axis (docs/theory/bloch-cell.md): row
+    nx-1 reads Ey of row 0 times it, row 0 reads Hz of row nx-1 times its
+    conjugate.  Real runs pass 1.0 (the same bits as the plain wrap); Bloch runs
+    pass a complex128 and complex128 field, polarization and psi arrays (numba
+    compiles a separate specialization).  The y wrap never carries a phase.
 
 The H and E updates are fused row by row: row i of E needs rows i and i-1 of
 H^{n+1/2}; row i of H needs rows i and i+1 of E^n.  Each block first updates
@@ -44,7 +50,7 @@ from fdtd.solver.kernels.options import PARALLEL, SERIAL
 
 
 @njit(**SERIAL)
-def _h_row(i, Ex, Ey, Hz, prof_x, prof_y, psi_hz_x, psi_hz_y):
+def _h_row(i, Ex, Ey, Hz, prof_x, prof_y, psi_hz_x, psi_hz_y, wrap_phase):
     nx, ny = Hz.shape
     nxlo, nxhi, ckx_i, ckx_h, bx_i, cx_i, bx_h, cx_h = prof_x
     nylo, nyhi, cky_i, cky_h, by_i, cy_i, by_h, cy_h = prof_y
@@ -56,9 +62,16 @@ def _h_row(i, Ex, Ey, Hz, prof_x, prof_y, psi_hz_x, psi_hz_y):
     ey1 = Ey[ip]
     ex = Ex[i]
     kx = ckx_h[i]
-    for j in range(ny - 1):
-        hz[j] -= kx * (ey1[j] - ey0[j]) - cky_h[j] * (ex[j + 1] - ex[j])
-    hz[ny - 1] -= kx * (ey1[ny - 1] - ey0[ny - 1]) - cky_h[ny - 1] * (ex[0] - ex[ny - 1])
+    if ip == 0:
+        # across the x wrap: row nx is the next cell's row 0, exp(i theta) Ey[0]
+        ph = wrap_phase
+        for j in range(ny - 1):
+            hz[j] -= kx * (ph * ey1[j] - ey0[j]) - cky_h[j] * (ex[j + 1] - ex[j])
+        hz[ny - 1] -= kx * (ph * ey1[ny - 1] - ey0[ny - 1]) - cky_h[ny - 1] * (ex[0] - ex[ny - 1])
+    else:
+        for j in range(ny - 1):
+            hz[j] -= kx * (ey1[j] - ey0[j]) - cky_h[j] * (ex[j + 1] - ex[j])
+        hz[ny - 1] -= kx * (ey1[ny - 1] - ey0[ny - 1]) - cky_h[ny - 1] * (ex[0] - ex[ny - 1])
     ii = pml_slot(i, nx, nxlo, nxhi)
     if ii >= 0:
         b = bx_h[i]
@@ -83,7 +96,7 @@ def _h_row(i, Ex, Ey, Hz, prof_x, prof_y, psi_hz_x, psi_hz_y):
 
 @njit(**SERIAL)
 def _e_rows(i, Ex, Ey, Hz, Px, Pxo, Py, Pyo, seg_x, seg_y, coef, prof_x, prof_y,
-            psi_ex_y, psi_ey_x, curl, dsum, tally, bath_row, gid, bathc, box_x, box_y):
+            psi_ex_y, psi_ey_x, curl, dsum, tally, bath_row, gid, bathc, box_x, box_y, wrap_phase):
     nx, ny = Hz.shape
     nxlo, nxhi, ckx_i, ckx_h, bx_i, cx_i, bx_h, cx_h = prof_x
     nylo, nyhi, cky_i, cky_h, by_i, cy_i, by_h, cy_h = prof_y
@@ -115,8 +128,14 @@ def _e_rows(i, Ex, Ey, Hz, Px, Pxo, Py, Pyo, seg_x, seg_y, coef, prof_x, prof_y,
         im = nx - 1
     hzm = Hz[im]
     kx = ckx_i[i]
-    for j in range(ny):
-        curl[j] = -kx * (hz[j] - hzm[j])
+    if i == 0:
+        # across the x wrap: row -1 is the previous cell's row nx-1, exp(-i theta) Hz[nx-1]
+        phm = wrap_phase.conjugate()
+        for j in range(ny):
+            curl[j] = -kx * (hz[j] - phm * hzm[j])
+    else:
+        for j in range(ny):
+            curl[j] = -kx * (hz[j] - hzm[j])
     ii = pml_slot(i, nx, nxlo, nxhi)
     if ii >= 0:
         b = bx_i[i]
@@ -134,20 +153,21 @@ def _e_rows(i, Ex, Ey, Hz, Px, Pxo, Py, Pyo, seg_x, seg_y, coef, prof_x, prof_y,
 @njit(**PARALLEL)
 def step_te(Ex, Ey, Hz, Px, Pxo, Py, Pyo, seg_x, seg_y, coef, prof_x, prof_y,
             psi_hz_x, psi_ey_x, psi_hz_y, psi_ex_y, nchunks, tally, bath_rows, gid, bathc,
-            box_x, box_y):
+            box_x, box_y, wrap_phase):
     """Advance (Ex, Ey, Hz) and the polarization by one step (see module doc)."""
     nx, ny = Hz.shape
     for c in prange(nchunks):
         i_last = (c + 1) * nx // nchunks - 1
         if i_last >= c * nx // nchunks:
-            _h_row(i_last, Ex, Ey, Hz, prof_x, prof_y, psi_hz_x, psi_hz_y)
+            _h_row(i_last, Ex, Ey, Hz, prof_x, prof_y, psi_hz_x, psi_hz_y, wrap_phase)
     for c in prange(nchunks):
         i0 = c * nx // nchunks
         i1 = (c + 1) * nx // nchunks
-        curl = np.empty(ny)
-        dsum = np.empty(ny)
+        curl = np.empty_like(Hz[0])
+        dsum = np.empty_like(Hz[0])
         for i in range(i0, i1):
             if i != i1 - 1:
-                _h_row(i, Ex, Ey, Hz, prof_x, prof_y, psi_hz_x, psi_hz_y)
+                _h_row(i, Ex, Ey, Hz, prof_x, prof_y, psi_hz_x, psi_hz_y, wrap_phase)
             _e_rows(i, Ex, Ey, Hz, Px, Pxo, Py, Pyo, seg_x, seg_y, coef, prof_x, prof_y,
-                    psi_ex_y, psi_ey_x, curl, dsum, tally, bath_rows[i], gid, bathc, box_x, box_y)
+                    psi_ex_y, psi_ey_x, curl, dsum, tally, bath_rows[i], gid, bathc, box_x, box_y,
+                    wrap_phase)

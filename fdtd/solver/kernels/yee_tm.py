@@ -10,7 +10,9 @@ Staggering: Ez[i, j] at (i, j), Hx[i, j] at (i, j+1/2), Hy[i, j] at
 (i+1/2, j); index n wraps to 0.  Arguments follow :mod:`.yee_te`:
 ``psi_hy_x, psi_ez_x`` have shape (n_pml_x, ny), ``psi_hx_y, psi_ez_y``
 (nx, n_pml_y); ``seg`` are the row segments of the Ez map, ``box`` its tally
-ranges.  Row i of Ez needs rows i and i-1 of Hy; row i of H needs rows i and
+ranges; ``wrap_phase`` is exp(i theta) of a Bloch-periodic x axis (1.0 for real
+fields; see :mod:`.yee_te`): row nx-1 reads Ez of row 0 times it, row 0 reads
+Hy of row nx-1 times its conjugate.  Row i of Ez needs rows i and i-1 of Hy; row i of H needs rows i and
 i+1 of Ez, so the same two-phase fused sweep applies.
 """
 
@@ -24,7 +26,7 @@ from fdtd.solver.kernels.options import PARALLEL, SERIAL
 
 
 @njit(**SERIAL)
-def _h_row(i, Ez, Hx, Hy, prof_x, prof_y, psi_hy_x, psi_hx_y):
+def _h_row(i, Ez, Hx, Hy, prof_x, prof_y, psi_hy_x, psi_hx_y, wrap_phase):
     nx, ny = Ez.shape
     nxlo, nxhi, ckx_i, ckx_h, bx_i, cx_i, bx_h, cx_h = prof_x
     nylo, nyhi, cky_i, cky_h, by_i, cy_i, by_h, cy_h = prof_y
@@ -39,8 +41,14 @@ def _h_row(i, Ez, Hx, Hy, prof_x, prof_y, psi_hy_x, psi_hx_y):
         hx[j] -= cky_h[j] * (ez[j + 1] - ez[j])
     hx[ny - 1] -= cky_h[ny - 1] * (ez[0] - ez[ny - 1])
     kx = ckx_h[i]
-    for j in range(ny):
-        hy[j] += kx * (ez1[j] - ez[j])
+    if ip == 0:
+        # across the x wrap: row nx is the next cell's row 0, exp(i theta) Ez[0]
+        ph = wrap_phase
+        for j in range(ny):
+            hy[j] += kx * (ph * ez1[j] - ez[j])
+    else:
+        for j in range(ny):
+            hy[j] += kx * (ez1[j] - ez[j])
     ii = pml_slot(i, nx, nxlo, nxhi)
     if ii >= 0:
         b = bx_h[i]
@@ -65,7 +73,7 @@ def _h_row(i, Ez, Hx, Hy, prof_x, prof_y, psi_hy_x, psi_hx_y):
 
 @njit(**SERIAL)
 def _e_row(i, Ez, Hx, Hy, Pz, Pzo, seg, coef, prof_x, prof_y, psi_ez_x, psi_ez_y,
-           curl, dsum, tally, bath_row, gid, bathc, box):
+           curl, dsum, tally, bath_row, gid, bathc, box, wrap_phase):
     nx, ny = Ez.shape
     nxlo, nxhi, ckx_i, ckx_h, bx_i, cx_i, bx_h, cx_h = prof_x
     nylo, nyhi, cky_i, cky_h, by_i, cy_i, by_h, cy_h = prof_y
@@ -77,9 +85,16 @@ def _e_row(i, Ez, Hx, Hy, Pz, Pzo, seg, coef, prof_x, prof_y, psi_ez_x, psi_ez_y
     hym = Hy[im]
     hx = Hx[i]
     kx = ckx_i[i]
-    curl[0] = kx * (hy[0] - hym[0]) - cky_i[0] * (hx[0] - hx[ny - 1])
-    for j in range(1, ny):
-        curl[j] = kx * (hy[j] - hym[j]) - cky_i[j] * (hx[j] - hx[j - 1])
+    if i == 0:
+        # across the x wrap: row -1 is the previous cell's row nx-1, exp(-i theta) Hy[nx-1]
+        phm = wrap_phase.conjugate()
+        curl[0] = kx * (hy[0] - phm * hym[0]) - cky_i[0] * (hx[0] - hx[ny - 1])
+        for j in range(1, ny):
+            curl[j] = kx * (hy[j] - phm * hym[j]) - cky_i[j] * (hx[j] - hx[j - 1])
+    else:
+        curl[0] = kx * (hy[0] - hym[0]) - cky_i[0] * (hx[0] - hx[ny - 1])
+        for j in range(1, ny):
+            curl[j] = kx * (hy[j] - hym[j]) - cky_i[j] * (hx[j] - hx[j - 1])
     ii = pml_slot(i, nx, nxlo, nxhi)
     if ii >= 0:
         b = bx_i[i]
@@ -108,20 +123,20 @@ def _e_row(i, Ez, Hx, Hy, Pz, Pzo, seg, coef, prof_x, prof_y, psi_ez_x, psi_ez_y
 
 @njit(**PARALLEL)
 def step_tm(Ez, Hx, Hy, Pz, Pzo, seg, coef, prof_x, prof_y, psi_hy_x, psi_ez_x, psi_hx_y,
-            psi_ez_y, nchunks, tally, bath_rows, gid, bathc, box):
+            psi_ez_y, nchunks, tally, bath_rows, gid, bathc, box, wrap_phase):
     """Advance (Ez, Hx, Hy) and the polarization by one step (see module doc)."""
     nx, ny = Ez.shape
     for c in prange(nchunks):
         i_last = (c + 1) * nx // nchunks - 1
         if i_last >= c * nx // nchunks:
-            _h_row(i_last, Ez, Hx, Hy, prof_x, prof_y, psi_hy_x, psi_hx_y)
+            _h_row(i_last, Ez, Hx, Hy, prof_x, prof_y, psi_hy_x, psi_hx_y, wrap_phase)
     for c in prange(nchunks):
         i0 = c * nx // nchunks
         i1 = (c + 1) * nx // nchunks
-        curl = np.empty(ny)
-        dsum = np.empty(ny)
+        curl = np.empty_like(Ez[0])
+        dsum = np.empty_like(Ez[0])
         for i in range(i0, i1):
             if i != i1 - 1:
-                _h_row(i, Ez, Hx, Hy, prof_x, prof_y, psi_hy_x, psi_hx_y)
+                _h_row(i, Ez, Hx, Hy, prof_x, prof_y, psi_hy_x, psi_hx_y, wrap_phase)
             _e_row(i, Ez, Hx, Hy, Pz, Pzo, seg, coef, prof_x, prof_y, psi_ez_x, psi_ez_y,
-                   curl, dsum, tally, bath_rows[i], gid, bathc, box)
+                   curl, dsum, tally, bath_rows[i], gid, bathc, box, wrap_phase)
