@@ -373,6 +373,23 @@ def test_doppler_spectrum_input_gives_the_reference_rates():
     assert abs(gam2 * spec.internal_power - balance) < 1e-12 * res.rest_power_down
 
 
+def test_any_object_with_the_spectrum_arrays_is_a_doppler_spectrum():
+    """fdtd.reference does not import the recorder: a plain namespace with the same arrays
+    (omega, branch, power), speed and internal_frequency gives the same rates, and without
+    half-windows the errors are NaN."""
+    from types import SimpleNamespace
+
+    lz = f.Material(1.0, (f.LorentzPole(2.0, 1.0, 0.1),), "lossy Lorentz")
+    ref = PlanarReference(Stack.half_space(lz), MovingLineSource("dipole", 0.6, 0.5, 1.0, 1.2, "x"))
+    spec = _spectrum_from_reference(ref, 40.0)
+    plain = SimpleNamespace(omega=spec.omega, branch=spec.branch, power=spec.power,
+                            speed=spec.speed, internal_frequency=spec.internal_frequency)
+    a = rates.equivalent_rates(spec, moment=1.0, dims=2, axis="x")
+    b = rates.equivalent_rates(plain, moment=1.0, dims=2, axis="x")
+    assert (a.ratio_down, a.ratio_up) == (b.ratio_down, b.ratio_up)
+    assert math.isnan(b.ratio_down_error) and math.isnan(b.ratio_up_error)
+
+
 # ------------------------------------------------------------------ d. bad input
 
 

@@ -52,6 +52,7 @@ import scipy.constants as sc
 
 from fdtd import _checks
 from fdtd.errors import ParameterError
+from fdtd.reference.planar import Bulk1D, PlanarReference, PlanarResult
 
 #: Dimensionalities: 1 sheet dipole (1D grid), 2 line dipole (2D grid), 3 point dipole.
 DIMENSIONS = (1, 2, 3)
@@ -386,36 +387,47 @@ def _build(W_down, W_up, err_down, err_up, *, moment, omega0, speed, dims, axis,
 # --------------------------------------------------------------------- public entry points
 
 
+#: what a Doppler spectrum offers: per-point arrays and the source's speed and Omega
+_SPECTRUM_FIELDS = ("omega", "branch", "power", "speed", "internal_frequency")
+
+
+def _is_spectrum(obj) -> bool:
+    """Whether ``obj`` reads as a Doppler spectrum (duck typing: this package does not know
+    the recorder that measured it)."""
+    return all(hasattr(obj, name) for name in _SPECTRUM_FIELDS)
+
+
 def equivalent_rates(result, *, dipole=None, units=None, hbar=None, moment=None, dims=None,
                      axis=None, omega0=None, speed=None, rtol: float = 1e-8) -> EquivalentRates:
     """Decay and excitation rates from a Doppler-resolved classical computation.
 
     ``result`` is one of
 
-    * :class:`fdtd.planar.PlanarReference` (solved here with ``rtol``) or
-      :class:`fdtd.planar.Bulk1D`: everything (moment, omega0, speed, dims,
-      axis) is read from it.  A line current (kind "current", at rest) is the
-      dipole p0 = I/omega0.
-    * :class:`fdtd.planar.PlanarResult`: give ``moment`` (rest-frame p0 of
-      the source), ``omega0``, ``speed``, ``dims`` and ``axis``.
-    * :class:`fdtd.spectral.DopplerSpectrum` (simulator): speed and Omega
-      come from it (omega0 = gamma Omega); give ``moment`` (the rest-frame
-      amplitude the run used, e.g. ``MovingDipole.moment``), ``dims`` (2 or
-      1) and ``axis``.
+    * :class:`~fdtd.reference.planar.PlanarReference` (solved here with ``rtol``)
+      or :class:`~fdtd.reference.planar.Bulk1D`: everything (moment, omega0,
+      speed, dims, axis) is read from it.  A line current (kind "current", at
+      rest) is the dipole p0 = I/omega0.
+    * :class:`~fdtd.reference.planar.PlanarResult`: give ``moment`` (rest-frame
+      p0 of the source), ``omega0``, ``speed``, ``dims`` and ``axis``.
+    * a Doppler spectrum, such as the simulator's DopplerSpectrum: any object
+      with arrays ``omega``, ``branch`` and ``power`` of one shape (n,) (lab
+      frequency, +1/-1 branch label and power of each point), the floats
+      ``speed`` and ``internal_frequency`` (Omega, so omega0 = gamma Omega) and
+      optionally ``halves`` (the powers of the two half-windows, each (n,), or
+      None).  Give ``moment`` (the rest-frame amplitude the run used),
+      ``dims`` (2 or 1) and ``axis``.
 
     Absolute rates: give the transition dipole ``dipole`` = |d| and either
     ``units`` (a UnitSystem; |d| in SI, see :func:`free_space_rate_si`; rates
     in SI) or ``hbar`` (normalized hbar; |d| and rates normalized).  Without
     ``dipole`` only the ratios are filled.
 
-    Errors: DopplerSpectrum -- the spread between the two half-windows of the
-    branch's rest-frame power (as :meth:`DopplerSpectrum.error` does for the
-    branch powers; the unresolved part of the ledger's work is not attributed
-    to a branch); planar reference -- the branch's quadrature error estimate
-    scaled by W'_s / P_s.
+    Errors: Doppler spectrum -- the spread between the two half-windows of the
+    branch's rest-frame power (as the simulator's spectrum does for the branch
+    powers; the unresolved part of the ledger's work is not attributed to a
+    branch), NaN without ``halves``; planar reference -- the branch's quadrature
+    error estimate scaled by W'_s / P_s.
     """
-    from fdtd.reference.planar import Bulk1D, PlanarReference, PlanarResult
-    from fdtd.recording.doppler import DopplerSpectrum
 
     if isinstance(result, PlanarReference):
         src = result.source
@@ -442,10 +454,11 @@ def equivalent_rates(result, *, dipole=None, units=None, hbar=None, moment=None,
         return equivalent_rates(result.solve(rtol), dipole=dipole, units=units, hbar=hbar,
                                 moment=abs(result.moment), dims=1, axis=axis or "y",
                                 omega0=result.omega0, speed=result.speed)
-    if not isinstance(result, (PlanarResult, DopplerSpectrum)):
+    if not isinstance(result, PlanarResult) and not _is_spectrum(result):
         raise ParameterError(
             f"result = {type(result).__name__}: expected a PlanarReference, Bulk1D, PlanarResult "
-            "or DopplerSpectrum (for a measured power at rest use rates_at_rest)")
+            "or DopplerSpectrum (an object with omega, branch and power arrays, speed and "
+            "internal_frequency; for a measured power at rest use rates_at_rest)")
     if dims is None:
         raise ParameterError("dims = None: give the dimensionality (1 or 2) of the computation")
     dims = check_dims(dims)
@@ -464,7 +477,7 @@ def equivalent_rates(result, *, dipole=None, units=None, hbar=None, moment=None,
         if per is None:
             raise ParameterError("this PlanarResult has no per-branch internal power "
                                  "(branch['internal_power']): recompute it with the current "
-                                 "fdtd.planar")
+                                 "fdtd.reference.planar")
         if not set(per) <= {1, -1}:
             raise ParameterError(f"PlanarResult branches {sorted(per)}: a line charge (branch 0) "
                                  "has no internal transition; equivalent rates need a dipole "
@@ -481,22 +494,22 @@ def equivalent_rates(result, *, dipole=None, units=None, hbar=None, moment=None,
             errs[s] = e * abs(W[s] / Ps) if Ps != 0.0 else gam2 * e
         return _build(W[1], W[-1], errs[1], errs[-1], moment=moment, omega0=w0, speed=v, dims=dims,
                       axis=axis, dipole=dipole, units=units, hbar=hbar, source="planar reference")
-    if isinstance(result, DopplerSpectrum):  # (the type was checked above)
-        if omega0 is not None or speed is not None:
-            raise ParameterError("omega0/speed are read from the DopplerSpectrum: do not give them")
-        v = _checks.in_range("spectrum speed", result.speed, 0.0, 1.0, hi_open=True)
-        Om = _positive("spectrum internal_frequency", result.internal_frequency)
-        W = rest_frame_branch_powers(result.omega, result.branch, result.power, Om, v)
-        errs = {1: math.nan, -1: math.nan}
-        if result.halves is not None:
-            errs = {1: 0.0, -1: 0.0}
-            for hp in result.halves:
-                Wh = rest_frame_branch_powers(result.omega, result.branch, hp, Om, v)
-                for s in (1, -1):
-                    errs[s] = max(errs[s], abs(Wh[s] - W[s]))
-        w0 = Om / math.sqrt(1.0 - v * v)
-        return _build(W[1], W[-1], errs[1], errs[-1], moment=moment, omega0=w0, speed=v, dims=dims,
-                      axis=axis, dipole=dipole, units=units, hbar=hbar, source="Doppler spectrum")
+    # a Doppler spectrum (checked above)
+    if omega0 is not None or speed is not None:
+        raise ParameterError("omega0/speed are read from the DopplerSpectrum: do not give them")
+    v = _checks.in_range("spectrum speed", result.speed, 0.0, 1.0, hi_open=True)
+    Om = _positive("spectrum internal_frequency", result.internal_frequency)
+    W = rest_frame_branch_powers(result.omega, result.branch, result.power, Om, v)
+    errs = {1: math.nan, -1: math.nan}
+    if getattr(result, "halves", None) is not None:
+        errs = {1: 0.0, -1: 0.0}
+        for hp in result.halves:
+            Wh = rest_frame_branch_powers(result.omega, result.branch, hp, Om, v)
+            for s in (1, -1):
+                errs[s] = max(errs[s], abs(Wh[s] - W[s]))
+    w0 = Om / math.sqrt(1.0 - v * v)
+    return _build(W[1], W[-1], errs[1], errs[-1], moment=moment, omega0=w0, speed=v, dims=dims,
+                  axis=axis, dipole=dipole, units=units, hbar=hbar, source="Doppler spectrum")
 
 
 def rates_at_rest(power, omega0, *, moment, dims, axis=None, free_space_power=None,
