@@ -237,7 +237,7 @@ def _threshold(args) -> int:
         rep = threshold_report(**inp, notes=notes)
         figs = []
         if args.output:
-            from fdtd.viz.thresholds import plot_threshold_vs_cutoff     # matplotlib only when asked
+            from fdtd.viz.thresholds import plot_threshold_vs_cutoff     # the plotting stack only when asked
 
             figs = plot_threshold_vs_cutoff(inp["material"], args.output, omega0=inp["omega0"],
                                             beta_nl=inp["beta_nl"], geometry=inp["geometry"],
