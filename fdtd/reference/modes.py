@@ -189,8 +189,17 @@ class _Roots:
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
             r = residual(np.where(inside & (um < self.hi), um, self.lo), self.K2, self.pole_lo,
                          self.pole_hi, self.kind)
-        keep = ~inside | ((um < self.hi) & (r <= 0.0))
         self.lo = np.where(inside, um, self.lo)
+        self._keep(~inside | ((um < self.hi) & (r <= 0.0)))
+
+    def only_rows(self, rows) -> None:
+        """Drop the entries of every row not in ``rows`` (row indices of this table)."""
+        wanted = np.zeros(self.ok.shape[0], dtype=bool)
+        wanted[list(rows)] = True
+        self._keep(wanted[np.nonzero(self.ok)[0]])
+
+    def _keep(self, keep) -> None:
+        """Keep the flat entries where ``keep`` (one bool per entry) is True."""
         idx = np.flatnonzero(self.ok)
         self.ok = self.ok.copy()
         self.ok.flat[idx[~keep]] = False
@@ -315,23 +324,32 @@ def n_branches(material: Material) -> int:
 
 
 def modes_and_surface(material: Material, k, scheme: Scheme | None = None, local: bool = False,
-                      omega_min=None) -> tuple:
+                      omega_min=None, surface: bool = True, rows=None) -> tuple:
     """:func:`mode_frequencies` and :func:`surface_polariton_frequencies` from one root search.
 
     ``omega_min`` (c/ell, broadcast to the shape S of ``k``), if given: only
     frequencies >= omega_min are wanted; the others are NaN, and the search starts
     there (the gap criterion ``k^2 - omega^2 <= k_gap^2`` of
     :mod:`fdtd.reference.thresholds` asks for ``omega >= sqrt(k^2 - k_gap^2)``).
-    Returns ``(bulk (B,) + S, surface (Bs,) + S)`` (c/ell).
+    ``surface=False`` leaves the surface polariton out (no rows); ``rows``, if
+    given, are the only rows solved (indices into bulk rows followed by surface
+    rows), the others are NaN.  Returns ``(bulk (B,) + S, surface (Bs,) + S)`` (c/ell).
     """
     k = np.asarray(k, dtype=float)
     kf = np.abs(k.ravel())
     P, P_local = _poles(material, local), _poles(material, local=True)
     K2 = kf**2 if scheme is None else scheme.K2(kf)
     u_top = math.inf if scheme is None else scheme.u_top
-    bulk, surf = _solve(P, P_local, [_branch_brackets(P, K2, u_top),
-                                     _surface_brackets(material, K2, scheme)],
-                        _u_min(omega_min, kf, scheme))
+    tables = [_branch_brackets(P, K2, u_top)]
+    if surface:
+        tables.append(_surface_brackets(material, K2, scheme))
+    if rows is not None:
+        nb = tables[0].ok.shape[0]
+        tables[0].only_rows([r for r in rows if r < nb])
+        if surface:
+            tables[1].only_rows([r - nb for r in rows if r >= nb])
+    bulk, *rest = _solve(P, P_local, tables, _u_min(omega_min, kf, scheme))
+    surf = rest[0] if surface else np.zeros((0, kf.size))
     to_w = np.sqrt if scheme is None else scheme.u_to_omega
     return (to_w(bulk).reshape((bulk.shape[0],) + k.shape),
             to_w(surf).reshape((surf.shape[0],) + k.shape))

@@ -151,15 +151,20 @@ class Threshold:
         return what
 
 
-def _modes_on(material, k, cutoff: Cutoff, geometry: Geometry, local: bool):
+def _modes_on(material, k, cutoff: Cutoff, geometry: Geometry, local: bool, row=None):
     """Mode frequencies on k (N,): list of (label, omega (N,)); for a gap the
     surface polariton is added and points outside the coupling criterion
-    ``k^2 - omega^2 <= k_gap^2`` are NaN."""
+    ``k^2 - omega^2 <= k_gap^2`` are NaN.  With ``row`` only that row is
+    computed (the others are NaN): the refinements need one."""
+    rows = None if row is None else [row]
     if geometry.kind != "gap":
-        W = mode_frequencies(material, k, cutoff.scheme, local)
+        if rows is None:
+            W = mode_frequencies(material, k, cutoff.scheme, local)
+        else:
+            W, _ = modes_and_surface(material, k, cutoff.scheme, local, surface=False, rows=rows)
         return [(_branch_label(j, W.shape[0]), W[j]) for j in range(W.shape[0])]
     # only omega >= sqrt(k^2 - k_gap^2) passes the criterion: the search skips the rest
-    W, S = modes_and_surface(material, k, cutoff.scheme, local,
+    W, S = modes_and_surface(material, k, cutoff.scheme, local, rows=rows,
                              omega_min=np.sqrt(np.maximum(k * k - geometry.k_gap**2, 0.0)))
     rows = [(_branch_label(j, W.shape[0]), W[j]) for j in range(W.shape[0])]
     rows += [("surface polariton" + (f" {j}" if S.shape[0] > 1 else ""), S[j])
@@ -236,7 +241,7 @@ def _search(material: Material, omega0s: dict, cutoff: Cutoff, geometry: Geometr
                 lo, hi = float(k[i]), float(k[i + 1])
                 for _ in range(2):
                     kk = np.linspace(lo, hi, 513)
-                    ww = _modes_on(material, kk, cutoff, geometry, local)[r][1]
+                    ww = _modes_on(material, kk, cutoff, geometry, local, row=r)[r][1]
                     j = int(np.nonzero(np.isfinite(ww))[0][-1])
                     lo, hi, w_lo = float(kk[j]), float(kk[min(j + 1, 512)]), float(ww[j])
                 edges[(r, i)] = (lo, w_lo)
@@ -248,7 +253,7 @@ def _search(material: Material, omega0s: dict, cutoff: Cutoff, geometry: Geometr
         vi, ki, wi = float(v[i]), float(k[i]), float(w[i])
         for _ in range(2):
             kk = np.linspace(lo, hi, 401)
-            ww = _modes_on(material, kk, cutoff, geometry, local)[r][1]
+            ww = _modes_on(material, kk, cutoff, geometry, local, row=r)[r][1]
             vv = anomalous_speed(kk, ww, w0)
             if np.all(np.isnan(vv)):
                 break
