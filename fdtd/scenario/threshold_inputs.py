@@ -19,7 +19,6 @@ from fdtd.reference.cutoffs import Geometry
 from fdtd.reference.modes import Scheme, local_version
 from fdtd.scenario import quantities as Q
 from fdtd.scenario.quantities import ScenarioError
-from fdtd.space.stability import max_stable_dt
 
 _C0 = _sc.c                          # m/s
 
@@ -213,6 +212,10 @@ def resolve_inputs(scenario=None, *, material: str | None = None, eps=None, freq
     else:
         cf = values["grid"]["courant"] if values is not None else 0.95
     if dx is not None:
+        # imported here: the stability module pulls in scipy.optimize (~0.25 s), which a
+        # threshold without a grid never needs
+        from fdtd.space.stability import max_stable_dt
+
         media = list(mats.values()) + [mat, VACUUM]
         dt = cf * max_stable_dt((dx,) * dims, [local_version(m) for m in media])
         scheme = Scheme(dx, dt)
