@@ -1,8 +1,9 @@
 """The ``gapwake`` command line: a thin layer over :mod:`fdtd.api`.
 
 Exit codes: 0 success; 1 a run failed (e.g. numerical instability); 2 the
-scenario or the command line is wrong (nothing is written); 130 interrupted
-(partial results written and marked so).
+scenario or the command line is wrong (nothing is written); 3 the run completed
+but its figures did not settle (results written and marked "not converged");
+130 interrupted (partial results written and marked so).
 """
 
 from __future__ import annotations
@@ -133,6 +134,8 @@ def _overrides(scenario, pairs):
 
 
 def _print_summary(out, stream=sys.stdout) -> None:
+    if out.status != "complete":
+        stream.write(f"{out.status.upper()}: {out.stop_reason} -- the figures below are not final results\n")
     for k, pt in enumerate(out.points):
         if len(out.points) > 1:
             stream.write(f"point {k}\n")
@@ -142,6 +145,12 @@ def _print_summary(out, stream=sys.stdout) -> None:
                 err = v.get("error")
                 es = f" +- {err:.2e}" if isinstance(err, float) else ""
                 stream.write(f"  {name:28s} {val: .6e}{es} {v.get('units', '')}\n")
+            elif isinstance(val, dict):
+                n = len(next(iter(val.values()), []))
+                stream.write(f"  {name:28s} ({n} points: arrays {', '.join(val)} in --json and the results file)\n")
+            elif isinstance(val, list):
+                if val:
+                    stream.write(f"  {name:28s} " + "\n  {:28s} ".format("").join(map(str, val)) + "\n")
             else:
                 stream.write(f"  {name:28s} {val} {v.get('units', '')}\n")
     stream.write(f"results: {out.file} ({out.status}: {out.stop_reason})\n")
@@ -181,7 +190,9 @@ def main(argv=None) -> int:
                                   "points": out.points}, indent=1, default=float))
             else:
                 _print_summary(out)
-            return 130 if out.stop_reason.startswith("interrupted") else 0
+            if out.stop_reason.startswith("interrupted"):
+                return 130
+            return 3 if out.status == "not converged" else 0
         if args.command == "plot":
             from fdtd.viz.figures import plot_all
 

@@ -23,14 +23,15 @@ GLASS = f.Material(2.25, (), "n=1.5")
 L = 4.0
 
 
-def charge_case(medium: dict, v, length, cell, shape, tmp_path, transits=10, record=None, name="c.h5",
-                must_settle=True):
+def charge_case(medium: dict, v, length, cell, shape, tmp_path, transits=6, record=None, name="c.h5",
+                must_settle=True, max_time=None):
     """A line charge crossing a uniform medium in a co-moving cell; its results file."""
     sc = scenario({"medium": medium}, {"background": "medium"},
                   {"cell": cell, "length": length, "height": 2.0, "absorber": 1.2},
                   {"kind": "charge", "speed": v, "speed_ramp": 2.0, "shape_order": shape.order,
                    "shape_scale": shape.scale},
-                  run={"transits": transits}, record=record, name=name)
+                  run={"transits": transits, **({"max_time": max_time} if max_time else {})},
+                  record=record, name=name)
     out, res = run(sc, tmp_path, name)
     if must_settle:
         assert out.value("steady") is True, name
@@ -46,7 +47,10 @@ def test_frank_tamm_per_harmonic_within_3_percent_and_second_order(tmp_path):
     v, shape = 0.8, Shape(2, 1)
     errs = {}
     for d in (0.1, 0.05):
-        _out, res = charge_case(constant(2.25), v, L, d, shape, tmp_path, name=f"ft{d}.h5")
+        # the narrow shape also radiates at grid-scale k_x (numerical Cherenkov: the plan
+        # warns), where the total never settles; the resolved harmonics are what is checked
+        _out, res = charge_case(constant(2.25), v, L, d, shape, tmp_path, name=f"ft{d}.h5",
+                                must_settle=False)
         spec = res.spectrum()
         k, w, P = _per_harmonic(spec)
         expected = theory.row_harmonic_power(v, L, 2.25)
@@ -127,7 +131,10 @@ def test_lorentz_medium_emits_only_in_its_cherenkov_band(tmp_path):
     med = f.Material(1.0, (f.LorentzPole(1.25, W0, 0.0),), "lorentz")
     Lz = 6.0
     d = 0.04
-    _out, res = charge_case(lorentz(1.0, (1.25, W0, 0.0)), v, Lz, d, Shape(2, 1), tmp_path)
+    # lossless: the longitudinal resonance keeps absorbing, so the total never settles (the
+    # run says so); three windows, and the harmonics in and out of the band are checked
+    _out, res = charge_case(lorentz(1.0, (1.25, W0, 0.0)), v, Lz, d, Shape(2, 1), tmp_path,
+                            must_settle=False, max_time=2.0 + 3 * 6 * Lz / v)
     spec = res.spectrum()
     k, w, P = _per_harmonic(spec)
     eps = np.real(med.permittivity(w))

@@ -376,6 +376,7 @@ def test_moving_dipole_sheet_in_nonlocal_bulk_matches_reference(tmp_path):
     assert out.value("steady") is True
     sim = res.spectrum()
     ff = lambda k: shape.form_factor(k, d)  # noqa: E731
+    L = res.plan["length"]            # the cell length the plan chose (whole beat periods)
     per = Bulk1D(med, v, w0, form_factor=ff).periodic(L)
     total = sum(p.sum() for _k, p in per.values())
     _compare(sim, per, total)

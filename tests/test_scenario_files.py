@@ -438,7 +438,7 @@ def test_failed_write_leaves_no_complete_file(tmp_path, monkeypatch):
 
 def _long_case(tmp_path) -> Path:
     # a tighter tolerance and many transits keep it running for well over the time we wait
-    text = edit(edit(TINY, "transits = 2", "transits = 400\nsettle_tolerance = 1e-9"),
+    text = edit(edit(TINY, "transits = 2", 'transits = 2\nsettle_tolerance = 1e-12\nmax_time = "1 ns"'),
                 'cell = "20 nm"', 'cell = "12 nm"')
     return write(tmp_path, text, "long.toml")
 
@@ -466,7 +466,7 @@ def test_sigkill_leaves_no_complete_file(tmp_path):
     path, out = _long_case(tmp_path), tmp_path / "killed.h5"
     proc = _start(path, out)
     try:
-        _wait_for(proc, "settling")
+        _wait_for(proc, "window 1")
         proc.send_signal(signal.SIGKILL)
         proc.wait(timeout=30)
     finally:
@@ -487,9 +487,9 @@ def test_interrupt_keeps_partial_results(tmp_path):
     path, out = _long_case(tmp_path), tmp_path / "stopped.h5"
     proc = _start(path, out)
     try:
-        _wait_for(proc, "settling")
+        _wait_for(proc, "window 1")
         proc.send_signal(signal.SIGINT)
-        proc.wait(timeout=60)
+        proc.wait(timeout=180)
     finally:
         if proc.poll() is None:
             proc.kill()

@@ -1,5 +1,5 @@
 """Every worked scenario in scenarios/ runs through ``gapwake run``, shortened with ``--set``
-(two transits, the first scan point).  These are runs of the product as a user starts them;
+(the first scan point, at most three recording windows).  These are runs of the product as a user starts them;
 the checks are the run's own consistency (exit code, status, energy ledger, branch sum, the
 reference where the geometry is planar).  Their headline claims are asserted on the
 full-length runs by validation/worked_scenarios.py.
@@ -17,15 +17,26 @@ from fdtd.cli import main
 
 ROOT = Path(__file__).resolve().parents[1]
 SCENARIOS = sorted((ROOT / "scenarios").glob("*.toml"))
-#: 1D runs are dominated by per-step Python work today: over a minute even when shortened
-SLOW = {"bulk_exciton_threshold"}
+#: over a minute each even when shortened (per-step Python work dominates small cells today)
+SLOW = {"bulk_exciton_threshold", "polar_crystal_glide"}
 
 
 def _shortened(path: Path) -> list[str]:
+    """The first scan point, its own window, at most three windows (run.max_time)."""
+    import fdtd
+    from fdtd.experiment.session import plan_points
+
     data = tomllib.loads(path.read_text())
-    args = ["--set", "run.transits=2"]
+    args = []
+    sc = fdtd.load(path)
     if "scan" in data:
-        args += ["--set", f"scan.values=[{json.dumps(data['scan']['values'][0])}]"]
+        first = json.dumps(data["scan"]["values"][0])
+        args += ["--set", f"scan.values=[{first}]"]
+        sc = sc.set("scan.values", [data["scan"]["values"][0]])
+    _pt, p = plan_points(sc)[0]
+    if p.kind == "comoving":
+        t_max = p.seconds(p.switch_on + 3 * p.transits * p.transit)
+        args += ["--set", f'run.max_time="{t_max!r} s"']
     return args
 
 
@@ -37,16 +48,17 @@ def test_there_are_worked_scenarios():
                                   for p in SCENARIOS])
 def test_worked_scenario_runs_through_the_command_line(path, tmp_path, capsys):
     out = tmp_path / f"{path.stem}.h5"
-    assert main(["run", str(path), "-o", str(out), "--json", *_shortened(path)]) == 0
+    rc = main(["run", str(path), "-o", str(out), "--json", *_shortened(path)])
     data = json.loads(capsys.readouterr().out)
-    assert data["status"] in ("complete", "partial") and Path(data["file"]).exists()
+    # shortened, a run may stop before its figures settle: then it says so (exit 3)
+    assert (rc, data["status"]) in ((0, "complete"), (3, "not converged")), (rc, data["status"])
+    assert Path(data["file"]).exists()
     (p,) = data["points"]
     assert abs(p["ledger_residual"]["value"]) < 1e-9
     assert p["total_power"]["value"] > 0
     if "rest_frequency" in p:                     # a dipole: both branches add up to the total
         total = p["normal_power"]["value"] + p["anomalous_power"]["value"]
         assert total == pytest.approx(p["total_power"]["value"], rel=1e-9, abs=0)
-    if data["status"] == "complete" and p.get("steady", {}).get("value") is False:
-        pytest.fail("a run that did not settle is reported complete")
+    assert (data["status"] == "complete") == (p.get("steady", {}).get("value") is not False)
     if "reference_total_power" in p:
         assert p["reference_total_power"]["value"] > 0

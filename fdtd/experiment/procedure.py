@@ -1,18 +1,20 @@
-r"""The experiment procedure: set up -> ramp -> settle -> record -> summarise.
+r"""The experiment procedure: set up -> ramp -> record windows until steady -> summarise.
 
 This is the one path from a plan to a result: ``gapwake run``, :func:`fdtd.run`, the
 physics tests and the validation scripts all go through :class:`Experiment`.
 
 co-moving cell (``run.kind = "comoving"``)
-    ``ramp``   the dipole's oscillation (or the charge's speed) switches on;
-    ``settle`` blocks of one transit time until the dissipated power (outflow + bath,
-               Hann-weighted per block) settles to ``run.settle_tolerance``, or
-               ``run.max_time`` passes (then the results are marked not steady);
-    ``record`` the Doppler-resolved work and fluxes over ``run.transits`` transits,
-               snapshots and a line record for the (k_x, omega) map;
+    ``ramp``    the dipole's oscillation (or the charge's speed) switches on;
+    ``window``  successive recording windows of ``plan.transits`` transit times (whole
+                transits and whole beat periods of the Doppler lines), each demodulated
+                into its Doppler-branch powers; after each window the reported figures of
+                the last windows are compared (:func:`fdtd.recording.steady.window_convergence`)
+                and the run stops when they have settled to ``run.settle_tolerance`` or
+                ``run.max_time`` has passed (then it is marked not converged).  The last
+                window is the result; snapshots and the line record are of that window.
 open domain (``run.kind = "open"``)
-    ``record`` the run itself, with snapshots, the ledger, and a column-passage
-               analysis where the source moves uniformly across the domain.
+    ``record``  the run itself, with snapshots, the ledger, and a column-passage
+                analysis where the source moves uniformly across the domain.
 
 The state is a small dictionary plus the solver's arrays and the recorders'
 accumulators, so that a checkpoint (:mod:`fdtd.io.checkpoint`) taken at any block
@@ -24,21 +26,25 @@ from __future__ import annotations
 
 import logging
 import math
+import warnings
 
 from fdtd._progress import progress_bar
 from fdtd.errors import GapwakeError
 from fdtd.experiment.build import build
 from fdtd.recording.doppler import DopplerFluxRecorder, DopplerWorkRecorder, auto_sampling
 from fdtd.recording.line import FieldLineRecorder
-from fdtd.recording.snapshots import SnapshotRecorder
 from fdtd.recording.passage import PassageWorkRecorder
-from fdtd.recording.steady import DissipationMonitor, SteadyStateWarning, settled, spread
+from fdtd.recording.snapshots import SnapshotRecorder
+from fdtd.recording.steady import (CHARGE_FIGURES, DIPOLE_FIGURES, ZERO_CHARGE, ZERO_DIPOLE,
+                                   SteadyStateWarning, describe, window_convergence)
 from fdtd.scenario.plan import M_MAX_FRACTION_2D, Plan
 
 log = logging.getLogger("fdtd.experiment")
 
 #: open-domain runs advance in this many blocks (progress, checkpoints, ledger samples)
 OPEN_BLOCKS = 50
+#: a co-moving run records at least this many windows (one comparison)
+MIN_WINDOWS = 2
 
 
 class Experiment:
@@ -54,9 +60,13 @@ class Experiment:
     sink : h5py.Group, optional
         Where large records stream to (a point group of the results file being
         written); without it they are kept in memory.
+    records : bool
+        Snapshots and the line record as the plan asks (False: Doppler figures only, e.g.
+        for the coarse companion run of the grid check).
     """
 
-    def __init__(self, plan: Plan, progress: bool | None = None, checkpoint=None, sink=None):
+    def __init__(self, plan: Plan, progress: bool | None = None, checkpoint=None, sink=None,
+                 records: bool = True):
         self.plan = plan
         #: what a checkpoint must belong to: the plan as resolved, before the run adds notes
         self.plan_text = plan.to_json()
@@ -65,16 +75,17 @@ class Experiment:
         self.progress = progress
         self.checkpoint = checkpoint
         self.sink = sink
-        self.state = {"phase": "ramp" if plan.kind == "comoving" else "record", "settle_rates": [],
-                      "settle_start_step": None, "record_start_step": None, "steady": None,
+        self.records = records
+        comoving = plan.kind == "comoving"
+        self.state = {"phase": "ramp" if comoving else "record", "windows": [], "time_errors": {},
+                      "record_start_step": None if comoving else 0, "steady": None,
                       "interrupted": False, "last_checkpoint": 0}
-        if plan.kind != "comoving":
-            self.state["record_start_step"] = 0
-        self.monitor: DissipationMonitor | None = None
         self.work = self.flux = self.passage = None
         self.snapshots: SnapshotRecorder | None = None
         self.line: FieldLineRecorder | None = None
-        if self.state["phase"] == "record":
+        self.last_spectrum = None          # the demodulated spectrum of the last finished window
+        self.last_fluxes: list = []
+        if not comoving:
             self._start_recording()
 
     # -- step counts ------------------------------------------------------------
@@ -88,6 +99,7 @@ class Experiment:
 
     @property
     def record_steps(self) -> int:
+        """Steps of one recording window (co-moving) or of the whole run (open)."""
         p = self.plan
         if p.kind == "comoving":
             return p.transits * self.steps_transit
@@ -99,47 +111,64 @@ class Experiment:
             return self.steps_transit
         return max(self.record_steps // OPEN_BLOCKS, 1)
 
+    def max_windows(self) -> int:
+        """Windows that fit before run.max_time (at least MIN_WINDOWS)."""
+        left = self.plan.max_time / self.solver.dt - self.ramp_steps
+        return max(int(left // self.record_steps), MIN_WINDOWS)
+
     def expected_steps(self) -> int:
         """Best current guess of the total step count (settling ends when it ends)."""
-        st = self.state
-        if st["record_start_step"] is not None:
-            return st["record_start_step"] + self.record_steps
-        settle = max(len(st["settle_rates"]) + 1, 6) * self.steps_transit
-        return self.ramp_steps + settle + self.record_steps
-
-    def max_steps(self) -> int:
-        """Upper bound of the total step count (settling up to run.max_time)."""
         if self.plan.kind != "comoving":
             return self.record_steps
-        settle = max(int(self.plan.max_time / self.solver.dt) - self.ramp_steps, 6 * self.steps_transit)
-        return self.ramp_steps + settle + self.record_steps
+        n = max(len(self.state["windows"]) + 1, MIN_WINDOWS + 1)
+        return self.ramp_steps + min(n, self.max_windows()) * self.record_steps
+
+    def max_steps(self) -> int:
+        """Upper bound of the total step count (windows up to run.max_time)."""
+        if self.plan.kind != "comoving":
+            return self.record_steps
+        return self.ramp_steps + self.max_windows() * self.record_steps
 
     # -- recorders --------------------------------------------------------------
     def _group(self, name: str):
-        return None if self.sink is None else self.sink.require_group(name)
+        """A fresh group of the sink for a streamed record (a new window replaces the old)."""
+        if self.sink is None:
+            return None
+        if name in self.sink:
+            del self.sink[name]
+        return self.sink.create_group(name)
 
-    def _start_settling(self) -> None:
-        st = self.state
-        if st["settle_start_step"] is None:
-            st["settle_start_step"] = self.solver.step_count
-        self.monitor = DissipationMonitor(self.solver, self.steps_transit, origin=st["settle_start_step"])
+    def _close_window_recorders(self) -> None:
+        for rec in (self.work, self.flux, self.snapshots, self.line):
+            if rec is not None and hasattr(rec, "close"):
+                rec.close()
+            elif rec is not None:
+                obs = self.solver.observers
+                obs[:] = [o for o in obs if o is not rec]
+        self.work = self.flux = self.snapshots = self.line = None
 
-    def _start_recording(self) -> None:
-        """Attach the recorders of the record phase (also when resuming inside it)."""
+    def _start_recording(self, resuming: bool = False) -> None:
+        """Attach the recorders of the window starting at state["record_start_step"]
+        (also when resuming inside it: then their state is restored next)."""
         p, s, st = self.plan, self.solver, self.state
         n0 = st["record_start_step"]
         t0 = n0 * s.dt
-        T = self.record_steps * s.dt
+        N = self.record_steps
+        T = N * s.dt
         g = self.model.grid
         if p.kind == "comoving" and p.doppler and p.speed > 0:
             nx = g.shape[0]
-            m_max = (nx // M_MAX_FRACTION_2D if p.polarization != "1d" else nx // 2) \
-                if p.source_kind == "dipole" else None
+            # a dipole in 2D: harmonics up to k_x dx = pi/3 (beyond, fewer than six cells per
+            # wavelength; their work shows as unresolved); 1D, and a charge, whose Cherenkov
+            # spectrum grows with frequency up to the source's form factor: all of them
+            m_max = nx // M_MAX_FRACTION_2D if (p.polarization != "1d" and p.source_kind == "dipole") \
+                else nx // 2
             # 2D: sample near the Nyquist rate of the highest recorded line (a fraction of a
-            # step's cost); 1D records every step: it is cheap, and sub-sampling would fold
-            # the free waves of all harmonics onto the demodulated lines
-            every = auto_sampling(s.dt, p.cell, p.speed, p.Omega, 2 * math.pi * m_max / p.length) \
-                if (m_max and p.polarization != "1d") else 1
+            # step's cost) with a whole number of samples per window; 1D records every step:
+            # it is cheap, and sub-sampling would fold the free waves of all harmonics onto
+            # the demodulated lines
+            every = auto_sampling(s.dt, p.cell, p.speed, p.Omega, 2 * math.pi * m_max / p.length,
+                                  divides=N) if p.polarization != "1d" else 1
             self.work = DopplerWorkRecorder(s, self.source, p.speed, p.Omega, start=t0, duration=T,
                                             m_max=m_max, every=every)
             rows = [g.index_of(g.e_components[0], (0.0, y))[1] for y in p.flux_heights] \
@@ -149,12 +178,15 @@ class Experiment:
                                                 m_max=m_max, every=every)
         if p.kind == "open" and p.speed > 0 and p.polarization != "1d":
             self._start_passage()
+        if not self.records:
+            return
         if p.snapshots:
-            every = max(self.record_steps // p.snapshots, 1)
+            every = max(N // p.snapshots, 1)
             # one step before each mark: H lags E by half a step, and the last mark is the
             # last step of the record
             times = [(n0 + (k + 1) * every - 1) * s.dt for k in range(p.snapshots)]
-            self.snapshots = SnapshotRecorder(s, p.snapshot_component, times, path=self._group("snapshots"))
+            self.snapshots = SnapshotRecorder(s, p.snapshot_component, times, path=self._group("snapshots"),
+                                              resuming=resuming)
         if p.line_component:
             self.line = FieldLineRecorder(s, p.line_component, axis="x",
                                           position=None if g.dims == 1 else (p.line_height or 0.0),
@@ -194,16 +226,13 @@ class Experiment:
     def recorders(self) -> dict:
         """Name -> attached recorder (for checkpoints)."""
         out = {"work": self.work, "flux": self.flux, "passage": self.passage, "snapshots": self.snapshots,
-               "line": self.line, "monitor": self.monitor}
+               "line": self.line}
         return {k: v for k, v in out.items() if v is not None}
 
     def resume_recorders(self) -> None:
         """After the state was loaded from a checkpoint: attach the recorders of its phase."""
-        st = self.state
-        if st["phase"] == "settle":
-            self._start_settling()
-        elif st["phase"] in ("record", "done") and self.plan.kind == "comoving":
-            self._start_recording()
+        if self.state["phase"] == "window" and self.plan.kind == "comoving":
+            self._start_recording(resuming=True)
 
     # -- advancing ----------------------------------------------------------------
     def _advance(self, n: int, bar) -> None:
@@ -222,8 +251,21 @@ class Experiment:
     def _seconds(self, t: float) -> float:
         return self.plan.seconds(t)
 
+    @property
+    def zero_power(self) -> float:
+        """Below this a power counts as zero in the settling test: a small fraction of a
+        dipole's free-space power at rest (same dimensionality), or of a charge's apparent
+        power in the last window (fdtd.recording.steady)."""
+        p = self.plan
+        if p.source_kind == "dipole":
+            from fdtd.reference.rates import free_space_power
+
+            return ZERO_DIPOLE * free_space_power(p.omega0, abs(p.moment), p.dims, p.axis if p.dims == 2 else "y")
+        spec = self.last_spectrum
+        return ZERO_CHARGE * float(spec.meta.get("apparent", 0.0)) if spec is not None else 0.0
+
     def execute(self, stop_after_steps: int | None = None) -> str:
-        """Advance to the end of the record phase.
+        """Advance to the end of the run.
 
         Returns "completed", "interrupted" (Ctrl-C or SIGTERM: what was measured is
         kept) or "stopped" (``stop_after_steps`` total steps reached: for tests of
@@ -241,23 +283,26 @@ class Experiment:
                 if st["phase"] == "ramp":
                     n = min(self.block_steps, self.ramp_steps - s.step_count)
                     if n <= 0:
-                        st["phase"] = "settle"
-                        self._start_settling()
+                        self._next_window()
                         continue
                     self._advance(n, bar)
-                elif st["phase"] == "settle":
-                    self._settle_block(bar)
-                else:
+                elif st["phase"] == "window":
+                    end = st["record_start_step"] + self.record_steps
+                    n = min(self.block_steps, end - s.step_count)
+                    if n <= 0:
+                        self._finish_window()
+                        continue
+                    self._advance(n, bar)
+                else:                                   # record (open domain)
                     end = st["record_start_step"] + self.record_steps
                     n = min(self.block_steps, end - s.step_count)
                     if n <= 0:
                         st["phase"] = "done"
-                        self._close_recorders()
+                        self._close_streams()
                         continue
                     self._advance(n, bar)
-                    if p.kind == "open":
-                        log.debug("t = %.5g fs of %.5g fs", self._seconds(s.time) * 1e15,
-                                  self._seconds(p.open_time) * 1e15)
+                    log.debug("t = %.5g fs of %.5g fs", self._seconds(s.time) * 1e15,
+                              self._seconds(p.open_time) * 1e15)
                 s.ledger.sample()          # one point per block (a transit), in every phase
                 bar.total = max(self.expected_steps(), s.step_count)
                 self._maybe_checkpoint()
@@ -268,33 +313,57 @@ class Experiment:
             bar.close()
         return "completed"
 
-    def _settle_block(self, bar) -> None:
+    def _next_window(self) -> None:
+        st = self.state
+        st["phase"] = "window"
+        st["record_start_step"] = self.solver.step_count
+        self.solver.ledger.sample()
+        self._start_recording()
+
+    def _figures(self, spec) -> dict:
+        keys = DIPOLE_FIGURES if self.plan.source_kind == "dipole" else CHARGE_FIGURES
+        out = {k: float(getattr(spec, k)) for k in keys}
+        out["speed"] = self.plan.speed
+        return out
+
+    def _finish_window(self) -> None:
+        """Demodulate the window just recorded, test the settling, start the next or stop."""
         p, s, st = self.plan, self.solver, self.state
-        self._advance(self.steps_transit, bar)
-        rate = self.monitor.take()
-        st["settle_rates"].append(rate)
-        log.info("settling: t = %.5g fs, dissipated power %.6g %s", self._seconds(s.time) * 1e15,
-                 rate * p.units.power, "W/m^2" if p.dims == 1 else "W/m")
-        if settled(st["settle_rates"], p.settle_tol):
+        if self.work is None:                       # nothing demodulated (record.doppler = false)
+            st["windows"].append({})
+            st["steady"] = None
+            self._stop()
+            return
+        self.last_spectrum = self.work.result()
+        self.last_fluxes = self.flux.result() if self.flux is not None else []
+        st["windows"].append(self._figures(self.last_spectrum))
+        figures = DIPOLE_FIGURES if p.source_kind == "dipole" else CHARGE_FIGURES
+        steady, errors = window_convergence(st["windows"], p.settle_tol, self.zero_power, figures)
+        st["time_errors"] = errors
+        k = len(st["windows"])
+        log.info("window %d: t = %.5g fs, total power %.6g %s, %s", k, self._seconds(s.time) * 1e15,
+                 st["windows"][-1]["total"] * p.units.power, "W/m^2" if p.dims == 1 else "W/m",
+                 "settled" if steady else describe(st["windows"], errors, p.settle_tol))
+        if steady and k >= MIN_WINDOWS:
             st["steady"] = True
-        elif s.time >= p.max_time:
+            self._stop()
+        elif k >= self.max_windows():
             st["steady"] = False
-            import warnings
-
             warnings.warn(
-                f"{p.where}: the dissipated power did not settle to run.settle_tolerance = "
-                f"{p.settle_tol:g} by t = {self._seconds(s.time) * 1e15:.5g} fs (spread of the last "
-                f"blocks {spread(st['settle_rates']):.2e}): raise run.max_time, add loss, or accept a "
-                "larger tolerance; the results are marked not steady", SteadyStateWarning, stacklevel=3)
-        if st["steady"] is not None:
-            self.monitor.close()
-            self.monitor = None
-            st["phase"] = "record"
-            st["record_start_step"] = s.step_count
-            s.ledger.sample()
-            self._start_recording()
+                f"{p.where}: the reported figures did not settle to run.settle_tolerance = {p.settle_tol:g} "
+                f"by t = {self._seconds(s.time) * 1e15:.5g} fs ({describe(st['windows'], errors, p.settle_tol)}): "
+                "raise run.max_time, add loss, or accept a larger tolerance; the results are marked not "
+                "converged", SteadyStateWarning, stacklevel=3)
+            self._stop()
+        else:
+            self._close_window_recorders()
+            self._next_window()
 
-    def _close_recorders(self) -> None:
+    def _stop(self) -> None:
+        self.state["phase"] = "done"
+        self._close_streams()
+
+    def _close_streams(self) -> None:
         for rec in (self.snapshots, self.line):
             if rec is not None:
                 rec.close()

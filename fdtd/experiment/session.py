@@ -25,6 +25,9 @@ from fdtd.scenario.schema import Scenario
 
 log = logging.getLogger("fdtd.session")
 
+#: status of a run that completed but whose figures failed their own settling test
+NOT_CONVERGED = "not converged"
+
 
 @dataclass
 class SessionResult:
@@ -34,9 +37,25 @@ class SessionResult:
     points: list          # one summary dict per point
 
 
+#: scan keys that change the cell itself: then every point sizes its own cell
+_CELL_KEYS = ("grid.length", "grid.cell", "grid.cells_per_wavelength", "grid.adjust_length")
+
+
 def plan_points(scenario: Scenario) -> list:
-    """(point scenario, plan) for every point of the scenario (raises ScenarioError)."""
-    return [(pt, make_plan(pt.resolve())) for pt in scenario.scan_points()]
+    """(point scenario, plan) for every point of the scenario (raises ScenarioError).
+
+    Within a scan every point keeps the cell (length and cell size) the first point's plan
+    chose, so that the points are comparable, unless the scan varies the cell itself."""
+    points = scenario.scan_points()
+    first = make_plan(points[0].resolve())
+    out = [(points[0], first)]
+    scan_key = scenario.values.get("scan", {}).get("key")
+    for pt in points[1:]:
+        if scan_key not in _CELL_KEYS and first.kind == "comoving":
+            pt = pt.set("grid.length", f"{first.length * first.ell!r} m") \
+                .set("grid.cell", f"{first.cell * first.ell!r} m").set("grid.adjust_length", False)
+        out.append((pt, make_plan(pt.resolve())))
+    return out
 
 
 def run_scenario(scenario: Scenario, out=None, progress: bool | None = None, checkpoint=None,
@@ -84,12 +103,22 @@ def run_scenario(scenario: Scenario, out=None, progress: bool | None = None, che
                              exp.state["phase"])
                 why = exp.execute()
                 steady = exp.state.get("steady")
-                st = "complete" if why == "completed" and steady is not False else "partial"
+                grid = None
+                if why == "completed" and p.grid_check and p.kind == "comoving":
+                    from fdtd.experiment.grid_check import run_grid_check
+
+                    grid = run_grid_check(p, exp.last_spectrum, progress=progress)
                 if why == "interrupted":
+                    st = "partial"
                     status, reason = "partial", f"interrupted at step {exp.solver.step_count}"
-                elif st == "partial" and status == "complete":
-                    status, reason = "partial", "not steady within run.max_time"
-                outcome = summarise(exp, st)
+                elif steady is False:
+                    st = NOT_CONVERGED
+                    if status == "complete":
+                        status, reason = NOT_CONVERGED, ("the reported figures did not settle within "
+                                                         "run.max_time")
+                else:
+                    st = "complete"
+                outcome = summarise(exp, st, grid)
                 write_point(group, p, outcome, pt.values["geometry"]["kind"])
                 summaries.append(outcome.summary)
                 f.flush()

@@ -78,8 +78,14 @@ class _Figures:
         self.d[name] = {"value": value, "error": error, "units": units, "normalized": normalized}
 
 
-def summarise(exp, status: str) -> Outcome:
-    """The outcome of an executed :class:`~fdtd.experiment.procedure.Experiment`."""
+#: a grid error above this fraction of a figure is flagged in the summary
+GRID_WARNING = 0.1
+
+
+def summarise(exp, status: str, grid: dict | None = None) -> Outcome:
+    """The outcome of an executed :class:`~fdtd.experiment.procedure.Experiment`; ``grid``
+    is the result of :func:`fdtd.experiment.grid_check.run_grid_check` (its errors are
+    added in quadrature to the time errors)."""
     p, s = exp.plan, exp.solver
     F = _Figures(p.units)
     led = s.ledger
@@ -90,23 +96,41 @@ def summarise(exp, status: str) -> Outcome:
                  + (b.outflow - a.outflow)) / scale
         F.plain("ledger_residual", float(resid), "1", normalized=float(resid))
     out = Outcome(status=status, summary=F.d, ledger_samples=list(led.samples), grid=_grid_info(exp))
-    spec = None
-    if exp.work is not None and exp.work.n_samples:
-        spec = exp.work.result()
+    spec = exp.last_spectrum
+    if spec is not None:
         spec.meta["partial"] = status != "complete" or exp.state.get("steady") is False
         out.spectrum = spec
+        drift = exp.state.get("time_errors") or {}
+        grid_errors = (grid or {}).get("errors") or {}
+
+        def error(attr):
+            # time: the larger of the drift between windows and the spread within the last one
+            # (and, for the total, the work not on the recorded Doppler points); grid: the
+            # coarse companion's estimate; independent, so added in quadrature
+            e = spec.error(attr)
+            d = drift.get(attr)
+            e_time = max(e, d) if d is not None else e
+            return math.hypot(e_time, grid_errors.get(attr, 0.0))
+
         for name, attr, q in (("total_power", "total", "power"), ("normal_power", "normal", "power"),
                               ("anomalous_power", "anomalous", "power"), ("drag_force", "drag_force", "force"),
                               ("motion_power", "motion_power", "power"),
                               ("internal_power", "internal_power", "power")):
-            err = spec.error(attr) if attr != "motion_power" else p.speed * spec.error("drag_force")
+            if attr == "motion_power":
+                err = p.speed * error("drag_force")
+            elif attr in ("normal", "anomalous") and p.source_kind != "dipole":
+                continue                       # a charge has one line per harmonic, no branches
+            else:
+                err = error(attr)
             F.fig(name, getattr(spec, attr), q, err)
         F.fig("unresolved_power", spec.unresolved, "power")
+        if grid is not None:
+            _grid_figures(p, spec, grid, F)
         _grid_cutoff_check(p, spec, F)
         if p.source_kind == "dipole" and p.speed > 0:
             _quantum_rates(p, spec, F)
-    if exp.flux is not None and exp.flux.wsum[0] > 0:
-        out.fluxes = exp.flux.result()
+    if exp.last_fluxes:
+        out.fluxes = exp.last_fluxes
         for y, fl in zip(p.flux_heights, out.fluxes):
             F.fig(f"flux_up_at_{y * p.ell * 1e9:.4g}nm", fl.total, "power")
     if exp.passage is not None and np.all(exp.passage.filled == exp.passage.n_win):
@@ -117,6 +141,7 @@ def summarise(exp, status: str) -> Outcome:
         F.fig("drag_force", pspec.drag_force, "force")
     if p.stack is not None and p.reference and p.speed > 0 and p.kind == "comoving" and spec is not None:
         _reference(p, out, F)
+    _run_facts(exp, F)
     F.plain("steady", exp.state.get("steady"))
     F.plain("status", status)
     F.plain("speed", p.speed, "c", normalized=p.speed)
@@ -127,6 +152,48 @@ def summarise(exp, status: str) -> Outcome:
     _geometry(exp, out)
     out.material_curves = _material_curves(p)
     return out
+
+
+def _run_facts(exp, F: _Figures) -> None:
+    """What was run: cell, step, harmonics, window, every automatic change, per-harmonic powers."""
+    p, s = exp.plan, exp.solver
+    F.fig("cell_length", p.length, "length")
+    F.fig("cell_size", p.cell, "length")
+    F.fig("time_step", s.dt, "time")
+    if p.kind == "comoving":
+        F.plain("window_transits", p.transits, "transit times L/v", normalized=p.transits)
+        if p.window_beats:
+            F.plain("window_beat_periods", p.window_beats, "beat periods pi/Omega", normalized=p.window_beats)
+        F.plain("windows_recorded", len(exp.state["windows"]), normalized=len(exp.state["windows"]))
+    spec = exp.last_spectrum
+    if spec is not None:
+        sel = spec.kx > 0 if p.source_kind != "dipole" else np.ones(spec.kx.size, dtype=bool)
+        F.plain("harmonics", int(np.unique(np.abs(np.round(spec.kx * p.length / (2 * np.pi)))).size))
+        u = p.units
+        F.plain("per_harmonic", {"kx": (spec.kx[sel] / u.length).tolist(),
+                                 "omega": (spec.omega[sel] * u.angular_frequency).tolist(),
+                                 "branch": spec.branch[sel].astype(int).tolist(),
+                                 "power": (spec.power[sel] * u.power).tolist()},
+                "kx 1/m, omega rad/s, branch +1/-1/0, power " + si_of(u, "power")[0])
+    F.plain("adjustments", list(p.adjustments))
+    F.plain("notes", list(p.notes))
+
+
+def _grid_figures(p, spec, grid: dict, F: _Figures) -> None:
+    """The grid check's figures: the estimated discretization error of the total power,
+    relative, and a warning when it is large."""
+    errs = grid.get("errors") or {}
+    if not errs:
+        if grid.get("note"):
+            p.notes.append(grid["note"])
+        return
+    rel = errs["total"] / abs(spec.total) if spec.total else float("nan")
+    F.plain("grid_error_of_total", rel, "1", normalized=rel)
+    F.fig("coarse_grid_total_power", grid["coarse"]["total"], "power")
+    if rel > GRID_WARNING:
+        F.plain("warning_grid_resolution",
+                f"the total power changes by {100 * rel * 3 / 1.5:.0f} % between this grid and one twice "
+                f"as coarse (estimated discretization error {100 * rel:.0f} %): refine grid.cell")
 
 
 def _grid_info(exp) -> dict:

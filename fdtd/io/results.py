@@ -240,6 +240,8 @@ def write_summary(group, summary: dict) -> None:
     for k, v in summary.items():
         if isinstance(v, dict) and "value" in v:
             val = v["value"]
+            if isinstance(val, (dict, list)):
+                continue                       # arrays and lists: in the JSON only
             if isinstance(val, (bool, np.bool_, str)):
                 g.attrs[k] = str(val)
             elif val is None:

@@ -136,6 +136,26 @@ class DopplerSpectrum:
         return self.source_work_rate - self.total
 
 
+def _unmix(S: np.ndarray, csum: np.ndarray, wsum: np.ndarray) -> np.ndarray:
+    """Separate the two Doppler lines of every harmonic exactly.
+
+    ``S`` (n_windows, 2, ...) holds the window sums ``sum_t w_t e^{i omega_s t} X(t)`` of a
+    signal X whose harmonic carries the lines omega_+ and omega_- = omega_+ - 2 Omega.  Each
+    sum also picks up the other line times ``c = sum_t w_t e^{2 i Omega t} / sum_t w_t``:
+    ``S_+ = W (x_+ + c x_-)``, ``S_- = W (x_- + conj(c) x_+)``.  Solving the 2x2 system removes
+    the cross terms whatever the window length (docs/theory/doppler-work.md, "Windows");
+    with a window of whole beat periods pi/Omega, c = 0 and this changes nothing."""
+    out = S.copy()
+    for wi in range(S.shape[0]):
+        if wsum[wi] <= 0:
+            continue
+        c = csum[wi] / wsum[wi]
+        det = 1.0 - abs(c) ** 2
+        out[wi, 0] = (S[wi, 0] - c * S[wi, 1]) / det
+        out[wi, 1] = (S[wi, 1] - np.conj(c) * S[wi, 0]) / det
+    return out
+
+
 class _Checkpointable:
     """Recorders whose accumulators a checkpoint saves and a resumed run restores bit for bit.
 
@@ -188,7 +208,7 @@ class DopplerWorkRecorder(_Checkpointable):
         ``1/T``.  Without it, a flat window up to the last recorded step.
     """
 
-    _STATE = ("A", "B", "wsum", "n_samples", "weight_sum", "t_first", "t_last", "work0", "work_last",
+    _STATE = ("A", "B", "wsum", "csum", "n_samples", "weight_sum", "t_first", "t_last", "work0", "work_last",
               "weighted_work", "weighted_time")
 
     def __init__(self, solver, source, speed: float, internal_frequency: float = 0.0,
@@ -208,7 +228,7 @@ class DopplerWorkRecorder(_Checkpointable):
         if self.duration is not None:
             slowest = max(nx * g.spacing[0] / self.speed if self.speed > 0 else 0.0,
                           2 * math.pi / self.Omega if self.Omega > 0 else 0.0)
-            if not self.duration >= slowest:
+            if not self.duration >= slowest * (1 - 1e-9):
                 raise ParameterError(
                     f"recording duration = {duration!r} is shorter than one period of the slowest "
                     f"component it must resolve ({slowest:.6g}: the transit time L/v or 2 pi/Omega); "
@@ -265,6 +285,10 @@ class DopplerWorkRecorder(_Checkpointable):
         self.A = np.zeros((n_win,) + shape, dtype=complex)
         self.B = np.zeros((n_win,) + shape, dtype=complex)
         self.wsum = np.zeros(n_win)
+        self.csum = np.zeros(n_win, dtype=complex)     # sum_t w_t exp(2 i Omega t): line cross-talk
+        # samples every ``every`` steps counted from the window's first step, so that a window
+        # of whole sampling intervals is sampled uniformly (exact nulls of the Hann taper)
+        self._anchor = int(round(self.start / solver.dt))
         solver.observers.append(self)
 
     # -- hooks -----------------------------------------------------------
@@ -274,7 +298,7 @@ class DopplerWorkRecorder(_Checkpointable):
     def before_step(self, solver) -> None:
         t_half = (solver.step_count + 0.5) * solver.dt
         if t_half < self.start or (self.duration is not None and t_half > self.start + self.duration) \
-                or solver.step_count % self.every:
+                or (solver.step_count - self._anchor) % self.every:
             self._e0 = None
             return
         self._e0 = [self._rows_of(solver.fields[c]).copy() for c in self.comps]
@@ -322,6 +346,8 @@ class DopplerWorkRecorder(_Checkpointable):
         demod.accumulate_half(self.A, self.B, Jhat, Epos, self._src_index, self._conj, phase, weights)
         w = weights[0]
         self.wsum += weights
+        if len(self.lines) == 2:
+            self.csum += weights * np.exp(2j * self.Omega * t)
         self.n_samples += 1
         self.weight_sum += w
         self.t_last = solver.step_count * solver.dt
@@ -336,10 +362,13 @@ class DopplerWorkRecorder(_Checkpointable):
         if self.n_samples == 0:
             raise ParameterError("DopplerWorkRecorder: nothing recorded (start time after the run?)")
         dV = self.solver.model.grid.cell_volume
+        A, B = self.A, self.B
+        if len(self.lines) == 2:
+            A, B = _unmix(A, self.csum, self.wsum), _unmix(B, self.csum, self.wsum)
         powers = []
-        for wi in range(self.A.shape[0]):
+        for wi in range(A.shape[0]):
             W = self.wsum[wi]
-            powers.append(-(dV / self.nx) * np.real(np.conj(self.A[wi]) * self.B[wi]).sum(axis=(1, 2))
+            powers.append(-(dV / self.nx) * np.real(np.conj(A[wi]) * B[wi]).sum(axis=(1, 2))
                           / max(W, 1e-300) ** 2)
         P = powers[0]   # (lines, m)
         kx, om, br, pw = [], [], [], []
@@ -370,10 +399,14 @@ class DopplerWorkRecorder(_Checkpointable):
         if len(powers) == 3 and self.wsum[1] > 0 and self.wsum[2] > 0:
             halves = tuple(combine(np.concatenate([powers[wi][a] for a in range(len(self.lines))]))[order]
                            for wi in (1, 2))
+        # the size of the source's exchange with the field, reactive part included: the
+        # scale below which a demodulated power counts as zero
+        apparent = float((dV / self.nx) * np.sum(np.abs(A[0]) * np.abs(B[0])) / max(self.wsum[0], 1e-300) ** 2)
         return DopplerSpectrum(kx[first][order], om[first][order], br[first][order], out_p[order],
                                window, rate, self.speed, self.Omega,
                                {"samples": self.n_samples, "t_first": self.t_first, "t_last": self.t_last,
-                                "flat_work_rate": (self.work_last - self.work0) / window},
+                                "flat_work_rate": (self.work_last - self.work0) / window,
+                                "apparent": apparent},
                                halves=halves)
 
 
@@ -400,7 +433,7 @@ class DopplerFluxRecorder(_Checkpointable):
     demodulation as :class:`DopplerWorkRecorder`.  Positive = upward (+y).
     """
 
-    _STATE = ("_A5", "_B5", "wsum")
+    _STATE = ("_A5", "_B5", "wsum", "csum")
 
     def __init__(self, solver, speed: float, internal_frequency: float, rows, start: float = 0.0,
                  duration: float | None = None, m_max: int | None = None, every: int = 1):
@@ -440,13 +473,15 @@ class DopplerFluxRecorder(_Checkpointable):
         self.A = self._A5[:, :, 0]
         self.B = self._B5[:, :, 0]
         self.wsum = np.zeros(n_win)
+        self.csum = np.zeros(n_win, dtype=complex)
+        self._anchor = int(round(self.start / solver.dt))
         self._e0 = None
         solver.observers.append(self)
 
     def before_step(self, solver) -> None:
         t_half = (solver.step_count + 0.5) * solver.dt
         inside = t_half >= self.start and (self.duration is None or t_half <= self.start + self.duration)
-        inside = inside and solver.step_count % self.every == 0
+        inside = inside and (solver.step_count - self._anchor) % self.every == 0
         self._e0 = solver.fields[self.ec][:, self.rows].copy() if inside else None
 
     def after_step(self, solver, injections) -> None:
@@ -461,19 +496,24 @@ class DopplerFluxRecorder(_Checkpointable):
         demod.accumulate_half(self._A5, self._B5, Eh[None], Hpos[None], self._src_index, self._conj,
                               phase, weights)
         self.wsum += weights
+        if len(self.lines) == 2:
+            self.csum += weights * np.exp(2j * self.Omega * t)
 
     def result(self) -> list[DopplerSpectrum]:
         """One :class:`DopplerSpectrum` per row; its ``power`` holds the upward flux."""
         if self.wsum[0] == 0:
             raise ParameterError("DopplerFluxRecorder: nothing recorded (start time after the run?)")
         dx = self.solver.model.grid.spacing[0]
+        A, B = self.A, self.B
+        if len(self.lines) == 2:
+            A, B = _unmix(A, self.csum, self.wsum), _unmix(B, self.csum, self.wsum)
         out = []
         for r in range(self.rows.size):
             per_window = []
-            for wi in range(self.A.shape[0]):
+            for wi in range(A.shape[0]):
                 W = max(self.wsum[wi], 1e-300)
                 per_window.append(self.sign * (dx / self.nx)
-                                  * np.real(np.conj(self.A[wi, :, r]) * self.B[wi, :, r]) / W**2)
+                                  * np.real(np.conj(A[wi, :, r]) * B[wi, :, r]) / W**2)
             kx, om, br = [], [], []
             for a, s in enumerate(self.lines):
                 w = self.k * self.speed + s * self.Omega
@@ -502,18 +542,22 @@ class DopplerFluxRecorder(_Checkpointable):
 
 
 def auto_sampling(dt: float, cell: float, speed: float, internal_frequency: float, k_top: float,
-                  max_alias_order: int = 3, margin: float = 0.15) -> int:
+                  max_alias_order: int = 3, margin: float = 0.15, divides: int | None = None) -> int:
     """Sampling interval (in steps) for the Doppler recorders.
 
     At most 80 % of the Nyquist limit of the highest recorded line
     ``k_top v + Omega``, and such that the deposit's grid-crossing aliases, at
     ``2 pi p v / dx`` from each line, do not fold back onto the lines: the
     sampling frequency must not divide them, i.e. ``p k v dt / dx`` stays at
-    least ``margin`` away from whole numbers for p = 1..max_alias_order.
+    least ``margin`` away from whole numbers for p = 1..max_alias_order.  With ``divides``
+    (the window's step count) only divisors of it are taken, so that the window is sampled
+    uniformly from its first step to its last.
     """
     k_nyq = max(int(0.8 * math.pi / ((k_top * speed + internal_frequency) * dt)), 1)
     c = speed * dt / cell
     for k in range(k_nyq, 0, -1):
+        if divides is not None and divides % k:
+            continue
         ok = True
         for p in range(1, max_alias_order + 1):
             x = p * k * c

@@ -273,6 +273,8 @@ class FieldLineRecorder(_Observer):
 
     def restore_state(self, state: dict) -> None:
         super().restore_state(state)
+        # the decimation is anchored at the level the recording began with
+        self._clock = _Clock(self.dt, self._n_begin, self.start, self.stop, self.every)
         for k in self.kinds:
             self._time_series[k].restore(state[f"time_{k}"])
         for c in self.components:

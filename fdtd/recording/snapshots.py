@@ -39,12 +39,15 @@ class SnapshotRecorder(_Observer):
         (n_taken, *grid.shape), ``time_E`` / ``time_H`` (n_taken,),
         ``requested_times`` (n_times,), ``coord_<component>_<axis>``; flushed
         after every snapshot.  Without it the snapshots are kept in memory.
+    resuming : bool
+        Built to continue a checkpointed record (:meth:`restore_state` follows): times
+        already past are allowed.
     max_memory : int
         In-memory limit (bytes); without ``path`` a request whose size
         (n_times x components x grid) exceeds it is refused.
     """
 
-    def __init__(self, solver, components, times, path=None, max_memory=256 * 2**20):
+    def __init__(self, solver, components, times, path=None, max_memory=256 * 2**20, resuming=False):
         super().__init__(solver, components)
         g = self.grid
         req = _checks.finite_array("times", np.atleast_1d(times))
@@ -55,7 +58,7 @@ class SnapshotRecorder(_Observer):
             raise ParameterError(f"times[{i}] = {float(req[i])!r} is smaller than times[{i - 1}] = "
                                  f"{float(req[i - 1])!r}: expected non-decreasing times")
         oldest = _level_time("H", self._n_begin, self.dt)
-        if req[0] < oldest - TIME_TOL * self.dt:
+        if req[0] < oldest - TIME_TOL * self.dt and not resuming:
             raise ParameterError(
                 f"times[0] = {float(req[0])!r} is earlier than the oldest state the solver holds "
                 f"(t = {oldest:.6g}, half a step before solver.time): expected times >= "

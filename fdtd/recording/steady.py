@@ -1,106 +1,109 @@
-r"""Steady-state detection of a co-moving cell: the one settle test of the code base.
+r"""Steady state of a co-moving cell, judged on the figures it reports.
 
-The experiment procedure advances in blocks of one transit time L/v.  In each block
-:class:`DissipationMonitor` forms the Hann-weighted mean of the power that leaves the
-field for good -- outflow into the absorbing layers plus heat into the bath, from the
-energy ledger.  Unlike the source's work it has almost no share of the large reactive
-near-field exchange at 2 Omega.  :func:`settled` compares the means of the last two
-groups of blocks (docs/theory/doppler-work.md, "Settling").
+The experiment procedure records successive windows (each a whole number of transit
+times and of beat periods, :func:`fdtd.scenario.plan.recording_window`) and demodulates
+each into its Doppler-branch powers.  :func:`window_convergence` compares the last
+windows: a figure F has settled when the change between the last two windows, scaled up
+by how slowly the changes shrink, is below ``tol`` times max(|F|, floor).  The same
+numbers give the time part of the error estimate (docs/theory/doppler-work.md,
+"Settling and error estimates").
+
+Why this and not the dissipated power: a steady dissipated power says the field as a
+whole has settled, but the reported branch powers can still be off by many per cent (a
+slow polariton next to one harmonic, a wave trapped at grazing incidence); a figure that
+is reported is tested.
 """
 
 from __future__ import annotations
 
 import math
 
-import numpy as np
-
-from fdtd import _checks
-from fdtd.errors import ParameterError
+#: the figures whose drift is estimated between windows; the settling test judges the powers
+#: (the drag and the internal power are differences of large terms when the total is small:
+#: their drift is reported in their error bars, not tested)
+DIPOLE_FIGURES = ("total", "normal", "anomalous", "drag_force", "internal_power")
+CHARGE_FIGURES = ("total", "drag_force")
+TESTED = ("total", "normal", "anomalous")
+#: figures that are judged against the total's scale (a small branch need only be small)
+SHARE_OF_TOTAL = 0.01
+#: a power below this counts as zero for a dipole: this fraction of its free-space power at
+#: rest; for a charge: this fraction of its apparent power (the size of its near-field
+#: exchange with the field, which a radiating charge nearly reaches: measured 0.96 of it just
+#: above the Cherenkov threshold in n = 1.5; below it the residue, grid noise, was 1e-4 to
+#: 3e-3 of it and changed by tens of per cent between windows).  The reported error bars
+#: carry the measured drift whatever this level.
+ZERO_DIPOLE = 1e-4
+ZERO_CHARGE = 5e-2
+#: a convergence ratio r = |dF_k / dF_{k-1}| above this is treated as no convergence yet
+R_MAX = 0.95
 
 
 class SteadyStateWarning(UserWarning):
     """A run did not settle to the requested tolerance within the allowed time."""
 
 
-def settled(rates, tol: float, group: int = 3) -> bool:
-    """Steady: the means of the last two groups of ``group`` blocks agree within ``tol``
-    (relative).
+def remaining_drift(deltas: list[float]) -> float:
+    """Estimated distance of the last window's figure from its steady value.
 
-    Comparing group means (not single blocks) tolerates a periodic beat of up to
-    ``group`` blocks, e.g. a slow exchange with a weakly damped free wave."""
-    if len(rates) < 2 * group:
-        return False
-    a = float(np.mean(rates[-2 * group:-group]))
-    b = float(np.mean(rates[-group:]))
-    return abs(a - b) <= tol * max(abs(a), abs(b), 1e-300)
+    ``deltas`` are the changes between successive windows (oldest first).  Two cases:
+
+    * the changes shrink with one sign (a transient dying out, F_k = F_inf + C r^k): the
+      remaining error is |dF_k| r / (1 - r), r = |dF_k / dF_{k-1}|;
+    * they alternate or grow (a persistent beat, noise): the last window sits anywhere in
+      the range the last changes span, max(|dF_{k-1}|, |dF_k|).
+
+    With a single change, twice it (one comparison says little about the trend)."""
+    if not deltas:
+        return math.inf
+    d2 = abs(deltas[-1])
+    if len(deltas) < 2:
+        return 2.0 * d2
+    d1 = abs(deltas[-2])
+    same_sign = deltas[-1] * deltas[-2] > 0
+    if same_sign and d1 > 0 and d2 < d1:
+        r = min(d2 / d1, R_MAX)
+        return d2 * max(1.0, r / (1.0 - r))
+    return max(d1, d2)
 
 
-def spread(rates, group: int = 3) -> float:
-    """Relative spread of the last ``group`` block rates about their mean."""
-    last = np.asarray(rates[-group:], dtype=float)
-    if last.size == 0:
-        return math.nan
-    return float(np.max(np.abs(last - last.mean())) / max(abs(last.mean()), 1e-300))
+def window_convergence(history: list[dict], tol: float, zero: float, figures=DIPOLE_FIGURES):
+    """(steady, time_errors) from the figures of successive windows.
+
+    ``history`` is a list (oldest first) of dicts figure -> value (normalized units);
+    ``zero`` the power below which a figure counts as zero (ZERO_DIPOLE, ZERO_CHARGE).
+    ``time_errors`` maps each figure to its estimated remaining drift."""
+    if len(history) < 2:
+        return False, {f: None for f in figures}
+    last = history[-1]
+    total = abs(last["total"])
+    errors, steady = {}, True
+    for f in figures:
+        vals = [h[f] for h in history]
+        deltas = [b - a for a, b in zip(vals[:-1], vals[1:])]
+        err = remaining_drift(deltas)
+        errors[f] = err
+        if f not in TESTED:
+            continue
+        ref = max(total, zero) if f == "total" else max(abs(last[f]), SHARE_OF_TOTAL * total, zero)
+        if err > tol * ref:
+            steady = False
+    return steady, errors
 
 
-class DissipationMonitor:
-    """Hann-weighted mean dissipated power over blocks of ``block_steps`` steps.
+def describe(history: list[dict], errors: dict, tol: float) -> str:
+    """One line on how far from settled the last windows are (for warnings)."""
+    if len(history) < 2:
+        return "only one recording window: nothing to compare"
+    last = history[-1]
+    parts = []
+    for f, e in errors.items():
+        if e is None or f not in last:
+            continue
+        v = abs(last[f])
+        parts.append(f"{f} {e / v:.1e}" if v > 0 else f"{f} {e:.1e} (abs)")
+    return f"{len(history)} windows; remaining drift relative to each figure: " + ", ".join(parts) + \
+        f" (tolerance {tol:g})"
 
-    A solver observer: after each step it books the change of outflow + bath heat with
-    the weight sin^2(pi (n + 1/2) / N) of the step's place in its block; :meth:`take`
-    closes a block and returns its mean rate (normalized power).  Needs the solver's
-    energy ledger.
 
-    The monitor follows the solver's step count, so a block is the steps
-    ``[k N, (k + 1) N)`` counted from ``origin`` (the step at which settling began).
-    """
-
-    _STATE = ("origin", "weighted", "weights", "_prev")
-
-    def __init__(self, solver, block_steps: int, origin: int | None = None):
-        if solver.ledger is None:
-            raise ParameterError("settling needs the energy ledger (Solver(..., ledger=True))")
-        self.solver = solver
-        self.block_steps = _checks.positive_int("block_steps", block_steps)
-        self.origin = int(solver.step_count if origin is None else origin)
-        x = (np.arange(self.block_steps) + 0.5) / self.block_steps
-        self._w = np.sin(np.pi * x) ** 2
-        self.weighted = 0.0
-        self.weights = 0.0
-        self._prev = self._dissipated()
-        solver.observers.append(self)
-
-    def _dissipated(self) -> float:
-        s = self.solver
-        return s.ledger.outflow + float(s.bath_rows.sum()) * s.model.grid.cell_volume / (4 * s.dt)
-
-    def before_step(self, solver) -> None:
-        pass
-
-    def after_step(self, solver, injections) -> None:
-        now = self._dissipated()
-        k = (solver.step_count - 1 - self.origin) % self.block_steps
-        w = self._w[k]
-        self.weighted += w * (now - self._prev)
-        self.weights += w
-        self._prev = now
-
-    def take(self) -> float:
-        """Mean dissipated power of the block just completed; starts the next block."""
-        if self.weights <= 0:
-            raise ParameterError("DissipationMonitor.take: no step recorded in this block")
-        rate = self.weighted / (self.weights * self.solver.dt)
-        self.weighted = 0.0
-        self.weights = 0.0
-        return float(rate)
-
-    def close(self) -> None:
-        obs = self.solver.observers
-        obs[:] = [o for o in obs if o is not self]
-
-    def checkpoint_state(self) -> dict:
-        return {name: getattr(self, name) for name in self._STATE}
-
-    def restore_state(self, state: dict) -> None:
-        for name in self._STATE:
-            setattr(self, name, type(getattr(self, name))(state[name]))
+def is_finite_figures(fig: dict) -> bool:
+    return all(isinstance(v, float) and math.isfinite(v) for v in fig.values())

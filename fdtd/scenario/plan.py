@@ -60,7 +60,7 @@ class Plan:
     ramp: float                   # proper time of the dipole's switch-on
     speed_ramp: float             # lab time for a charge to reach its speed
     shape: tuple
-    transits: int
+    transits: int                 # the recording window, in transit times
     settle_tol: float
     max_time: float
     open_time: float | None
@@ -73,9 +73,12 @@ class Plan:
     doppler: bool
     reference: bool
     checkpoint_every: int
+    grid_check: bool
     threads: int | None
     passage_span: tuple | None
     subsamples: int
+    window_beats: int = 0         # beat periods pi/Omega in the window (0: a charge)
+    window_mismatch: float = 0.0  # fraction of a beat by which the window misses whole beats
     ell: float = 1.0              # the reference length in metres
     where: str = "scenario"
     transition_dipole: float | None = None    # SI (C or C m^-1 per length); None: half the moment
@@ -182,26 +185,85 @@ def placements(res: Resolved):
 
 
 # ----------------------------------------------------------------------------- sizing
-def light_line_safe_length(approx_length: float, cell: float, speed: float, internal_frequency: float,
-                           search: float = 0.2) -> float:
-    """A cell length near ``approx_length`` (a whole number of cells) whose harmonics
-    k_m = 2 pi m / L keep away from the vacuum light-line crossings of the normal
-    Doppler line, k = Omega/(1 - v) and k = -Omega/(1 + v).
+def light_line_score(length: float, speed: float, internal_frequency: float) -> float:
+    """Distance, in units of the harmonic spacing 2 pi / L, from the vacuum light-line
+    crossings of the normal Doppler line, k = Omega/(1 - v) and k = -Omega/(1 + v), to the
+    nearest harmonic k_m = 2 pi m / L (0: a harmonic on a crossing, 0.5: midway).
 
-    A harmonic right at a crossing radiates at grazing incidence: its field builds up
-    and leaks out slowly, and a periodic cell then needs very long runs
-    (docs/theory/periodic-cell.md).
-    """
-    best, best_score = None, -1.0
-    n0 = int(round(approx_length / cell))
-    span = max(int(round(search * n0)), 1)
+    A harmonic right at a crossing radiates at grazing incidence: its field builds up and
+    leaks out slowly, and a periodic cell then needs very long runs
+    (docs/theory/periodic-cell.md)."""
+    dk = 2 * np.pi / length
     crossings = [internal_frequency / (1 - speed), -internal_frequency / (1 + speed)]
-    for n in range(max(n0 - span, 4), n0 + span + 1):
-        L = n * cell
-        dk = 2 * np.pi / L
-        score = 0.5 - min(abs(((c / dk) % 1.0) - 0.5) for c in crossings)
-        if score > best_score:
-            best, best_score = L, score
+    return 0.5 - max(abs(((c / dk) % 1.0) - 0.5) for c in crossings)
+
+
+#: a cell whose harmonics keep at least this far (in harmonic spacings) from a light-line
+#: crossing counts as safe
+LIGHT_LINE_SAFE = 0.2
+#: largest relative change of the cell length the plan makes on its own
+MAX_LENGTH_CHANGE = 0.1
+#: recording windows that fit into the default run.max_time at least
+DEFAULT_WINDOWS = 8
+#: fewest beat periods pi/Omega in a recording window: two in each half-window, whose
+#: spread is part of the error estimate
+MIN_BEATS = 4
+
+
+@dataclass(frozen=True)
+class Window:
+    """The recording window: ``transits`` transit times L/v that are also ``beats`` whole beat
+    periods pi/Omega of the two Doppler lines (``mismatch``: the fraction of a beat period by
+    which they miss, 0 when the cell length could be chosen)."""
+
+    length: float
+    transits: int
+    beats: int
+    mismatch: float
+
+
+def recording_window(length: float, speed: float, Omega: float, min_transits: int,
+                     adjust: bool, check_light_line: bool, max_transits: int | None = None) -> Window:
+    """Choose the cell length (if ``adjust``) and the window so that the window is a whole
+    number of transit times and of beat periods pi/Omega (docs/theory/doppler-work.md,
+    "Windows").
+
+    The Hann-tapered demodulation then nulls exactly the cross terms between the two
+    Doppler lines of each harmonic (frequency difference 2 Omega) and the grid-crossing
+    aliases (multiples of 2 pi v / dx).  With ``adjust`` the length becomes
+    L' = K pi v / (M Omega) for the smallest M >= ``min_transits`` (and >= two beat
+    periods, MIN_BEATS) and an integer K, within MAX_LENGTH_CHANGE of ``length`` and, for a 2D cell
+    beside vacuum, with its harmonics away from the light-line crossings.  Without it, M
+    is chosen (up to ``max_transits``) to miss a whole number of beats by the least."""
+    if Omega <= 0 or speed <= 0:
+        return Window(length, min_transits, 0, 0.0)
+    transit_over_beat = length * Omega / (math.pi * speed)      # beat periods per transit
+    m0 = max(min_transits, math.ceil(MIN_BEATS / transit_over_beat - 1e-9))
+    m_hi = max_transits or 4 * m0
+    if adjust:
+        best = None
+        for M in range(m0, m_hi + 1):
+            for K in {max(int(math.floor(M * transit_over_beat)), 2), max(int(math.ceil(M * transit_over_beat)), 2)}:
+                L = K * math.pi * speed / (M * Omega)
+                change = abs(L / length - 1)
+                if change > MAX_LENGTH_CHANGE:
+                    continue
+                score = light_line_score(L, speed, Omega) if check_light_line else 0.5
+                key = (score < LIGHT_LINE_SAFE, M, change)
+                if best is None or key < best[0]:
+                    best = (key, Window(L, M, K, 0.0))
+            if best is not None and not best[0][0]:
+                return best[1]
+        if best is not None:
+            return best[1]
+    best = None
+    for M in range(m0, m_hi + 1):
+        beats = M * transit_over_beat
+        miss = abs(beats - round(beats))
+        if best is None or miss < best.mismatch - 1e-12:
+            best = Window(length, M, max(int(round(beats)), 1), miss)
+        if miss < 1e-9:
+            break
     return best
 
 
@@ -254,18 +316,34 @@ def plan(res: Resolved) -> Plan:
         g = v["geometry"]
         height = res.L(g["surface"]) + s["gap_fraction"] * res.L(g["gap"])
     cell = _cell_size(res, grid, w_hi, height, surfaces, notes)
+    cell_asked = cell
     length = res.L(grid["length"])
     nx = max(int(round(length / cell)), 8)
+    window = Window(length, run["transits"], 0, 0.0)
     if run["kind"] == "comoving":
-        if s["kind"] == "dipole" and pol != "1d":     # 1D: a uniform medium, no vacuum light line
-            asked, cell_asked = length, length / nx
-            length = light_line_safe_length(length, cell_asked, speed, Omega)
+        if s["kind"] == "dipole" and speed > 0:
+            asked = length
+            window = recording_window(length, speed, Omega, run["transits"], grid["adjust_length"],
+                                      check_light_line=pol != "1d")     # 1D: a uniform medium
+            length = window.length
             nx = max(int(round(length / cell_asked)), 8)
             if abs(length - asked) > 1e-9 * asked:
                 adjustments.append(
-                    f"cell length {asked * res.ell:.4g} m -> {length * res.ell:.4g} m: no harmonic on "
-                    "the vacuum light-line crossing of a Doppler line")
+                    f"cell length {asked * res.ell:.6g} m -> {length * res.ell:.6g} m "
+                    f"({100 * (length / asked - 1):+.2f} %): the window of {window.transits} transits holds "
+                    f"{window.beats} whole beat periods pi/Omega"
+                    + (" and no harmonic sits on a vacuum light-line crossing" if pol != "1d" else ""))
+            if window.transits > run["transits"]:
+                adjustments.append(f"window {run['transits']} -> {window.transits} transits: at least {MIN_BEATS} "
+                                   "beat periods of the Doppler lines, whole transits and whole beats")
+            if window.mismatch > 1e-9:
+                notes.append(f"the window of {window.transits} transits misses a whole number of beat "
+                             f"periods by {window.mismatch:.2f} of one (the cell length is fixed): the two "
+                             "Doppler lines are separated by solving for their cross-talk instead")
         cell = length / nx
+        if abs(cell - cell_asked) > 1e-6 * cell:
+            adjustments.append(f"cell size {cell_asked * res.ell:.6g} m -> {cell * res.ell:.6g} m: "
+                               f"a whole number of cells ({nx}) in the cell length")
     half_height = res.L(grid["height"]) if grid.get("height") is not None else \
         max(2.0 * max([abs(height)] + [abs(y) for y in surfaces]) + 1.0, 2.0)
     lam0 = 2 * math.pi / (omega0 if omega0 else (w_hi or 1.0))
@@ -280,8 +358,10 @@ def plan(res: Resolved) -> Plan:
     ramp = s["ramp_periods"] * 2 * math.pi / omega0 if omega0 else 0.0
     speed_ramp = res.T(s["speed_ramp"]) if s.get("speed_ramp") is not None else (
         2.0 * lam0 / (2 * math.pi) if s["kind"] == "charge" else 0.0)
+    transit = length / speed if speed > 0 else 1.0
+    # default: 60 transit times, and at least DEFAULT_WINDOWS recording windows
     max_time = res.T(run["max_time"]) if run.get("max_time") is not None else \
-        (ramp * gam + speed_ramp + 60 * (length / speed if speed > 0 else 1.0))
+        (ramp * gam + speed_ramp + max(60, DEFAULT_WINDOWS * window.transits) * transit)
     flux = [res.L(Q.parse(y, "length", "record.flux_heights", where, res.scenario.natural))
             for y in rec.get("flux_heights") or ()]
     moment = (s["moment"] / res.units.dipole_moment) if s.get("moment") is not None else 1.0
@@ -298,13 +378,15 @@ def plan(res: Resolved) -> Plan:
              absorber=absorber, nx=nx, ny=ny, courant=grid["courant"], speed=speed, height=height,
              x0=res.L(s["x0"]), source_kind=s["kind"], omega0=omega0, Omega=Omega, axis=s["axis"],
              moment=moment, charge=charge, ramp=ramp, speed_ramp=speed_ramp,
-             shape=(order, scale), transits=run["transits"],
+             shape=(order, scale), transits=window.transits, window_beats=window.beats,
+             window_mismatch=window.mismatch,
              settle_tol=run["settle_tolerance"], max_time=max_time, open_time=res.T(run.get("time")),
              flux_heights=flux if pol != "1d" else [], snapshots=rec["snapshots"],
              snapshot_component=rec.get("snapshot_component") or ("Hz" if pol != "tm" else "Ez"),
              line_component=rec.get("line_component"), line_height=res.L(rec.get("line_height")),
              line_every=rec["line_every"], doppler=rec["doppler"], reference=rec["reference"],
-             checkpoint_every=run["checkpoint_every"], threads=grid.get("threads"),
+             checkpoint_every=run["checkpoint_every"], grid_check=run["grid_check"],
+             threads=grid.get("threads"),
              passage_span=(res.L(rec["passage_start"]), res.L(rec["passage_stop"]))
              if rec.get("passage_start") is not None and rec.get("passage_stop") is not None else None,
              subsamples=grid["subsamples"], ell=res.ell, where=where,

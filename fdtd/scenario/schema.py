@@ -105,6 +105,10 @@ SCHEMA = {
         "absorber": Key("length", False, doc="absorbing-layer thickness (default: a quarter wavelength, >= 10 cells)"),
         "courant": Key("number", False, default=0.95, lo=0.0, hi=1.0, lo_open=True,
                        doc="fraction of the stability limit"),
+        "adjust_length": Key("bool", False, default=True,
+                             doc="let the cell length change (by at most 10 %) so that the recording window "
+                                 "holds whole beat periods of the Doppler lines and no harmonic sits on a "
+                                 "light-line crossing; scans keep the first point's length"),
         "subsamples": Key("int", False, default=4, lo=1),
         "threads": Key("int", False, lo=1),
     },
@@ -131,11 +135,18 @@ SCHEMA = {
     },
     "run": {
         "kind": Key("choice", False, default="comoving", choices=("comoving", "open")),
-        "transits": Key("int", False, default=8, lo=1, doc="co-moving: recording window in transit times"),
-        "settle_tolerance": Key("number", False, default=2e-3, lo=0.0, lo_open=True),
+        "transits": Key("int", False, default=8, lo=1,
+                        doc="co-moving: recording window in transit times (at least; rounded up to whole "
+                            "beat periods of the Doppler lines); windows repeat until the figures settle"),
+        "settle_tolerance": Key("number", False, default=5e-3, lo=0.0, lo_open=True,
+                                doc="co-moving: largest remaining drift of the reported figures between "
+                                    "recording windows, relative to each figure"),
         "max_time": Key("time", False, doc="co-moving: give up settling after this time"),
         "time": Key("time", False, doc="open: simulated time"),
         "checkpoint_every": Key("int", False, default=0, lo=0, doc="steps between checkpoints (0: none)"),
+        "grid_check": Key("bool", False, default=True,
+                          doc="co-moving: run the point again on a grid twice as coarse and include the "
+                              "difference (the discretization error) in the error estimates"),
     },
     "record": {
         "doppler": Key("bool", False, default=True),
