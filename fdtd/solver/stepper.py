@@ -54,7 +54,8 @@ def staggered_zeros(shape, k: int, dtype=np.float64) -> np.ndarray:
     dtype = np.dtype(dtype)
     item = dtype.itemsize
     if 64 % item:
-        raise ParameterError(f"staggered_zeros dtype = {dtype}: expected an item size dividing 64 bytes")
+        raise ParameterError(
+            f"staggered_zeros dtype = {dtype}: expected an item size dividing 64 bytes")
     size = int(np.prod(shape))
     buf = np.zeros(size * item + 64 * (k % 32) + 128, dtype=np.uint8)
     start = (-buf.ctypes.data) % 64 + 64 * (k % 32)

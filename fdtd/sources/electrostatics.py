@@ -15,6 +15,12 @@ starts in its static state ``P = P_old = chi_s E``.  The discrete divergence of
 ``D`` then equals ``rho`` to the solver's round-off, and the charge-conserving
 deposition keeps it so.
 
+In a Bloch cell (docs/theory/bloch-cell.md) phi, E, P and rho are complex and
+the x link between node nx-1 and node 0 carries the wrap factor
+``f = exp(i theta)`` (``phi_{nx} = f phi_0``, ``phi_{-1} = conj(f) phi_{nx-1}``):
+the discrete Poisson operator stays Hermitian, and the divergence of
+:func:`gauss_residual` uses the same factor.
+
 Media with a Drude pole have no static permittivity (a conductor); the start
 is refused there.  Inside CPML layers the static field is not exactly the
 layer's own static solution; the small adjustment travels out as a wave and
@@ -52,8 +58,9 @@ def _static_tables(solver):
 
 
 def node_charge_density(solver, charges, t: float = 0.0) -> np.ndarray:
-    """Charge density of ``charges`` on the integer nodes at time t, shape of the grid."""
-    rho = np.zeros(solver.model.grid.n_cells)
+    """Charge density of ``charges`` on the integer nodes at time t, shape of the grid
+    (complex in a Bloch cell, where the charges hand phased densities)."""
+    rho = np.zeros(solver.model.grid.n_cells, dtype=solver.fields["Ex"].dtype)
     for q in charges:
         flat, dens = q.charge_density(t)
         np.add.at(rho, flat, dens)
@@ -65,7 +72,8 @@ def gauss_residual(solver, charges, interior_only: bool = True) -> np.ndarray:
 
     ``D = eps_inf E + sum_s P_s`` per E node.  With ``interior_only`` the
     nodes within one cell of an absorbing layer or wall are set to zero
-    (there the CPML changes the discrete divergence).
+    (there the CPML changes the discrete divergence).  In a Bloch cell the
+    x difference at node 0 reads ``conj(exp(i theta)) Dx[nx-1]`` (complex result).
     """
     g = solver.model.grid
     if g.polarization != "te":
@@ -80,7 +88,10 @@ def gauss_residual(solver, charges, interior_only: bool = True) -> np.ndarray:
             d = d + P.sum(axis=0)
         D[c] = d
     dx, dy = g.spacing
-    div = (D["Ex"] - np.roll(D["Ex"], 1, axis=0)) / dx + (D["Ey"] - np.roll(D["Ey"], 1, axis=1)) / dy
+    prev = np.roll(D["Ex"], 1, axis=0)
+    if solver.complex_fields:
+        prev[0] *= np.conj(solver.wrap_phase)
+    div = (D["Ex"] - prev) / dx + (D["Ey"] - np.roll(D["Ey"], 1, axis=1)) / dy
     res = div - node_charge_density(solver, charges, solver.time)
     if interior_only:
         mask = np.zeros(g.shape, dtype=bool)
@@ -113,16 +124,27 @@ def electrostatic_start(solver, charges) -> None:
         fixed[:, 0] = True
     rows, cols, vals = [], [], []
 
-    def couple(a_idx, b_idx, w):
+    def couple(a_idx, b_idx, w, fac=None):
+        # link a -> b with phi_b seen from a as fac * phi_b (fac = 1 except across a Bloch wrap):
+        # row a gains w (fac phi_b - phi_a), row b gains w (conj(fac) phi_a - phi_b)
         rows.extend([a_idx.ravel(), a_idx.ravel(), b_idx.ravel(), b_idx.ravel()])
         cols.extend([a_idx.ravel(), b_idx.ravel(), b_idx.ravel(), a_idx.ravel()])
         w = w.ravel()
-        vals.extend([-w, w, -w, w])
+        if fac is None:
+            vals.extend([-w, w, -w, w])
+        else:
+            fac = fac.ravel()
+            vals.extend([-w + 0j, w * fac, -w + 0j, w * np.conj(fac)])
 
     ip = np.roll(idx, -1, axis=0)   # node i+1 (wraps to 0, the wall on a closed axis)
     jp = np.roll(idx, -1, axis=1)
-    couple(idx, ip, ex / dx**2)
-    couple(idx, jp, ey / dy**2)
+    bloch = solver.complex_fields
+    wrap = None
+    if bloch:
+        wrap = np.ones((nx, ny), dtype=complex)
+        wrap[-1, :] = solver.wrap_phase       # the link from row nx-1 to the next cell's row 0
+    couple(idx, ip, ex / dx**2, wrap)
+    couple(idx, jp, ey / dy**2, np.ones((nx, ny), dtype=complex) if bloch else None)
     A = sps.csr_matrix((np.concatenate(vals), (np.concatenate(rows), np.concatenate(cols))),
                        shape=(nx * ny, nx * ny))
     free = ~fixed.ravel()
@@ -130,10 +152,13 @@ def electrostatic_start(solver, charges) -> None:
         raise ParameterError("electrostatic start needs at least one closed (walled) axis: a fully "
                              "periodic cell cannot hold a net charge")
     Af = A[free][:, free].tocsc()
-    phi = np.zeros(nx * ny)
+    phi = np.zeros(nx * ny, dtype=rho.dtype)
     phi[free] = spla.spsolve(Af, -rho.ravel()[free])
     phi = phi.reshape(nx, ny)
-    Ex = -(np.roll(phi, -1, axis=0) - phi) / dx
+    nxt = np.roll(phi, -1, axis=0)
+    if bloch:
+        nxt[-1] *= solver.wrap_phase
+    Ex = -(nxt - phi) / dx
     Ey = -(np.roll(phi, -1, axis=1) - phi) / dy
     for c, E in (("Ex", Ex), ("Ey", Ey)):
         mix = solver.model.mix_maps[c]

@@ -19,6 +19,14 @@ second term is the magnetization current of a moving electric dipole.
 
 Which dipole axis each grid can carry: TE_z in-plane ("x", "y"); TM_z
 out-of-plane ("z"); 1D "y" (a dipole sheet moving along x).
+
+**Bloch cells** (a :class:`~fdtd.space.edges.Bloch` edge on x, theta = k0 L): the
+source stands for the phased row ``J_total(x) = sum_m exp(i k0 m L) J(x - m L)``.
+The source keeps its unwrapped position; a deposit at unwrapped x index ``i_u``
+lands on ``i_u mod nx`` times ``exp(-i theta floor(i_u / nx))``, and the charge
+density gets the same factors, so the Esirkepov continuity equation and Gauss's
+law hold in the cell with the phased wrap (docs/theory/bloch-cell.md).  Currents
+(and charge densities) are then complex128; elsewhere they stay real.
 """
 
 from __future__ import annotations
@@ -80,6 +88,9 @@ class _MovingSource(Source):
         self.grid = g
         self.dt = solver.dt
         self.periodic = solver.model.periodic
+        # Bloch cell: theta reduced to [-pi, pi] (None without a Bloch edge)
+        bloch = solver.model.bloch
+        self.bloch_theta = None if bloch is None else bloch.wrap_phase
         # interior bounds in cells (positions of the source centre allowed)
         self.bounds = []
         for a in range(g.dims):
@@ -150,6 +161,22 @@ class _MovingSource(Source):
                     f"[{lo:.6g}, {hi:.6g}] allowed for its shape (clear of the absorbing layers "
                     "and walls): shorten the run, move the path, or enlarge the grid")
 
+    def _cell_factors(self, i0: int, ni: int) -> np.ndarray | None:
+        """Phased-row factors exp(-i theta floor(i_u / nx)) of the unwrapped x indices
+        ``i_u = i0 .. i0 + ni - 1`` (complex (ni,)), or None outside a Bloch cell."""
+        if self.bloch_theta is None:
+            return None
+        cells = np.floor_divide(np.arange(i0, i0 + ni), self.grid.shape[0])
+        return np.exp(-1j * self.bloch_theta * cells)
+
+    def _phased(self, patch: np.ndarray, i0: int) -> np.ndarray:
+        """A deposit patch (ni,) or (ni, nj) on unwrapped x indices from i0, times the
+        Bloch factors (unchanged outside a Bloch cell), flattened like :meth:`_flat`."""
+        fac = self._cell_factors(i0, patch.shape[0])
+        if fac is not None:
+            patch = patch * (fac if patch.ndim == 1 else fac[:, None])
+        return patch.reshape(-1)
+
     def _flat(self, i0: int, ni: int, j0: int | None = None, nj: int | None = None) -> np.ndarray:
         g = self.grid
         ii = np.arange(i0, i0 + ni)
@@ -181,6 +208,9 @@ class MovingCharge(_MovingSource):
         this option (default) a steady counter-current equal to minus the
         x-average of the deposited Jx, with the charge's own y-profile, removes
         the k_x = 0 part; it is divergence-free, so Gauss's law is untouched.
+        In a Bloch cell with theta != 0 (mod 2 pi) the phased row has no k_x = 0
+        part, and a cell-uniform current would not be divergence-free across the
+        phased wrap: the option then does nothing.
     """
 
     def __init__(self, charge: float, worldline: WorldLine, shape: Shape = Shape(3, 2),
@@ -210,9 +240,10 @@ class MovingCharge(_MovingSource):
         dV = dx * dy
         flat = self._flat(i0, cx.shape[0], j0, cx.shape[1])
         jx = (self.charge * dx / (dV * self.dt)) * cx
-        out = [("Ex", flat, jx.reshape(-1)),
-               ("Ey", flat, (self.charge * dy / (dV * self.dt)) * cy.reshape(-1))]
-        if self.periodic[0] and self.cancel_row_current:
+        out = [("Ex", flat, self._phased(jx, i0)),
+               ("Ey", flat, self._phased((self.charge * dy / (dV * self.dt)) * cy, i0))]
+        # theta = 0 only (the Bloch factors are then 1, so the real jx gives the same mean)
+        if self.periodic[0] and self.cancel_row_current and self.bloch_theta in (None, 0.0):
             nx, ny = self.grid.shape
             mean_rows = jx.sum(axis=0) / nx                       # x-average of Jx per row
             jj = np.arange(j0, j0 + cx.shape[1])
@@ -223,14 +254,16 @@ class MovingCharge(_MovingSource):
         return out
 
     def branch_currents(self, t_half: float):
-        """For a charge the current itself (one branch, real)."""
+        """For a charge the current itself (one branch; real outside Bloch cells)."""
         return self.currents(t_half)
 
     def charge_density(self, t: float) -> tuple[np.ndarray, np.ndarray]:
-        """(flat indices, density) of the deposited charge on integer nodes at time t."""
+        """(flat indices, density) of the deposited charge on integer nodes at time t
+        (complex with the phased-row factors in a Bloch cell)."""
         X = self.cell_position(t)
         i0, j0, w = deposit.charge_nodes_te(X[0], X[1], self.shape.order, self.shape.scale)
-        return self._flat(i0, w.shape[0], j0, w.shape[1]), self.charge * w.reshape(-1) / self.grid.cell_volume
+        return (self._flat(i0, w.shape[0], j0, w.shape[1]),
+                self._phased(self.charge * w / self.grid.cell_volume, i0))
 
 
 AXES = {"x": 0, "y": 1, "z": 2}
@@ -347,10 +380,10 @@ class MovingDipole(_MovingSource):
             i0, j0, jx, jy = deposit.dipole_te(X[:, 0].copy(), X[:, 1].copy(), p[:, 0].copy(),
                                                p[:, 1].copy(), o, s, g.spacing[0], g.spacing[1], dt)
             flat = self._flat(i0, jx.shape[0], j0, jx.shape[1])
-            return [("Ex", flat, jx.reshape(-1)), ("Ey", flat, jy.reshape(-1))]
+            return [("Ex", flat, self._phased(jx, i0)), ("Ey", flat, self._phased(jy, i0))]
         if g.polarization == "tm":
             i0, j0, jz = deposit.dipole_tm(X[:, 0].copy(), X[:, 1].copy(), p[:, 2].copy(), o, s,
                                            g.spacing[0], g.spacing[1], dt)
-            return [("Ez", self._flat(i0, jz.shape[0], j0, jz.shape[1]), jz.reshape(-1))]
+            return [("Ez", self._flat(i0, jz.shape[0], j0, jz.shape[1]), self._phased(jz, i0))]
         i0, jy = deposit.dipole_1d(X[:, 0].copy(), p[:, 1].copy(), o, s, g.spacing[0], dt)
-        return [("Ey", self._flat(i0, jy.shape[0]), jy)]
+        return [("Ey", self._flat(i0, jy.shape[0]), self._phased(jy, i0))]

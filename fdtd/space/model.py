@@ -195,10 +195,10 @@ class Model:
                                                    for c in grid.e_components)))
         if self.bloch is not None and self.nonlocal_pole:
             raise ParameterError(
-                f"edges for axis x = {self.edges[0]!r} with a spatially dispersive (nonlocal) pole on "
-                "the grid is not allowed: the pole's Laplacian reads across the x wrap and would need "
-                "the Bloch phase too, which it does not carry; expected Periodic() on x, or a "
-                "material without a NonlocalLorentzPole")
+                f"edges for axis x = {self.edges[0]!r} with a spatially dispersive (nonlocal) "
+                "pole on the grid is not allowed: the pole's Laplacian reads across the x wrap "
+                "and would need the Bloch phase too, which it does not carry; expected "
+                "Periodic() on x, or a material without a NonlocalLorentzPole")
 
     # ------------------------------------------------------------------
     def _mixtures_from_counts(self, counts: np.ndarray, n_samples: int) -> np.ndarray:
