@@ -10,9 +10,9 @@ Checks against outside sources:
   B. A. Munk and G. A. Burrell, IEEE Trans. Antennas Propag. 27, 331 (1979));
 * the stability limit of docs/theory/stability.md holds unchanged;
 * theta = 0 reproduces the real periodic run bit for bit;
-* linearity: a Bloch run at theta = pi on a cell of length L equals the
-  combination of two real periodic runs on the doubled cell 2L (the doubled cell
-  holds k = pi/L exactly); our derivation, docs/theory/bloch-cell.md;
+* linearity: a Bloch run at theta = 2 pi / N on a cell of length L equals the
+  combination of two real periodic runs on the cell N L (which holds those k
+  exactly), N = 2 and 3; our derivation, docs/theory/bloch-cell.md;
 * energy ledger (Hermitian form) and Gauss's law close to round-off.
 """
 
