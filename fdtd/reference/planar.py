@@ -278,7 +278,11 @@ class PlanarReference:
             if self.vertical_form_factor is not None:
                 med = self.stack.media[self.src_region]
                 ky = ky_branch(permittivity(med, w[ok]), w[ok], k[ok])
-                val = val * np.real(self.vertical_form_factor(ky) ** 2)
+                # deep in the evanescent range the factor overflows where the sheet gives
+                # nothing (a lossless medium): there the density is zero
+                with np.errstate(over="ignore", invalid="ignore"):
+                    ff2 = np.real(self.vertical_form_factor(ky) ** 2)
+                    val = np.where(val == 0, 0.0, val * ff2)
             out[ok] = val
         return out
 

@@ -188,21 +188,29 @@ def placements(res: Resolved):
 def light_line_score(length: float, speed: float, internal_frequency: float) -> float:
     """Distance, in units of the harmonic spacing 2 pi / L, from the vacuum light-line
     crossings of the normal Doppler line, k = Omega/(1 - v) and k = -Omega/(1 + v), to the
-    nearest harmonic k_m = 2 pi m / L (0: a harmonic on a crossing, 0.5: midway).
+    nearest harmonic k_m = 2 pi m / L, m != 0 (0: a harmonic on a crossing; at most 0.5).
 
     A harmonic right at a crossing radiates at grazing incidence: its field builds up and
     leaks out slowly, and a periodic cell then needs very long runs
     (docs/theory/periodic-cell.md)."""
     dk = 2 * np.pi / length
     crossings = [internal_frequency / (1 - speed), -internal_frequency / (1 + speed)]
-    return 0.5 - max(abs(((c / dk) % 1.0) - 0.5) for c in crossings)
+    score = 0.5
+    for c in crossings:
+        n = c / dk
+        # the nearest harmonic other than m = 0: k = 0 radiates straight up (omega = Omega),
+        # however close the crossing -Omega/(1 + v) comes to it for a slow oscillator
+        m = round(n) if round(n) != 0 else (1 if n >= 0 else -1)
+        score = min(score, abs(n - m))
+    return float(score)
 
 
 #: a cell whose harmonics keep at least this far (in harmonic spacings) from a light-line
 #: crossing counts as safe
 LIGHT_LINE_SAFE = 0.2
-#: largest relative change of the cell length the plan makes on its own
-MAX_LENGTH_CHANGE = 0.1
+#: largest relative change of the cell length the plan makes on its own (a short cell has few
+#: harmonics below a light-line crossing: moving them by a fifth of their spacing can take 20 %)
+MAX_LENGTH_CHANGE = 0.2
 #: recording windows that fit into the default run.max_time at least
 DEFAULT_WINDOWS = 8
 #: fewest beat periods pi/Omega in a recording window: two in each half-window, whose
@@ -243,7 +251,9 @@ def recording_window(length: float, speed: float, Omega: float, min_transits: in
     if adjust:
         best = None
         for M in range(m0, m_hi + 1):
-            for K in {max(int(math.floor(M * transit_over_beat)), 2), max(int(math.ceil(M * transit_over_beat)), 2)}:
+            k_lo = max(int(math.ceil(M * transit_over_beat * (1 - MAX_LENGTH_CHANGE))), 2)
+            k_hi = max(int(math.floor(M * transit_over_beat * (1 + MAX_LENGTH_CHANGE))), k_lo)
+            for K in range(k_lo, k_hi + 1):
                 L = K * math.pi * speed / (M * Omega)
                 change = abs(L / length - 1)
                 if change > MAX_LENGTH_CHANGE:
@@ -265,6 +275,53 @@ def recording_window(length: float, speed: float, Omega: float, min_transits: in
         if miss < 1e-9:
             break
     return best
+
+
+#: an evanescent harmonic must have decayed to this (amplitude) at the absorbing layer: the
+#: layer absorbs evanescent fields too (its complex stretch), which the run would count as
+#: emitted power (measured: 0.8 % of a vacuum dipole's power at e^{-kappa d} = 0.5)
+EVANESCENT_FLOOR = 1e-3
+
+
+def _harmonics(length: float, cell: float) -> np.ndarray:
+    nx = int(round(length / cell))
+    m = np.arange(1, max(nx // M_MAX_FRACTION_2D, 1) + 1)
+    return 2 * np.pi * np.concatenate([m, -m]) / length
+
+
+def light_line_detuning(length: float, cell: float, speed: float, Omega: float) -> float:
+    """Smallest distance, in frequency, of a recorded Doppler line from the vacuum light line
+    of its own harmonic, min | |k v + s Omega| - |k| |.
+
+    The switch-on leaves free waves at the light line (grazing, k_y ~ 0) that the absorbing
+    layers take only slowly; a window demodulating a line this close to them must be long
+    and the switch-on slow compared with 1/detuning (docs/theory/periodic-cell.md)."""
+    k = _harmonics(length, cell)
+    d = [np.abs(np.abs(k * speed + s_ * Omega) - np.abs(k)) for s_ in (1, -1)]
+    return float(np.min(np.concatenate(d)))
+
+
+#: the switch-on lasts at least this many periods of the smallest light-line detuning, and the
+#: recording window at least WINDOW_DETUNING_CYCLES of them (Hann leakage of a free wave at
+#: detuning delta falls as (delta T)^-3; the switch-on excites it as its spectrum at delta)
+RAMP_DETUNING_CYCLES = 4.0
+WINDOW_DETUNING_CYCLES = 2.0
+
+
+def evanescent_reach(length: float, cell: float, speed: float, Omega: float) -> float:
+    """Distance over which the slowest-decaying evanescent harmonic of a dipole in vacuum
+    falls to EVANESCENT_FLOOR: kappa = sqrt(k^2 - omega^2) over the cell's harmonics (both
+    Doppler lines, k_x dx <= pi/3), the propagating ones excluded."""
+    k = _harmonics(length, cell)
+    kappa = []
+    for s_ in (1, -1):
+        w = k * speed + s_ * Omega
+        ev = np.abs(w) < np.abs(k)
+        kappa.append(np.sqrt(k[ev] ** 2 - w[ev] ** 2))
+    kappa = np.concatenate(kappa)
+    if kappa.size == 0:
+        return 0.0
+    return float(np.log(1.0 / EVANESCENT_FLOOR) / kappa.min())
 
 
 def _cell_size(res: Resolved, grid: dict, w_hi, height, surfaces, notes) -> float:
@@ -325,6 +382,16 @@ def plan(res: Resolved) -> Plan:
             asked = length
             window = recording_window(length, speed, Omega, run["transits"], grid["adjust_length"],
                                       check_light_line=pol != "1d")     # 1D: a uniform medium
+            if pol != "1d":
+                # long enough to tell each line from the grazing free waves next to it
+                detuning = light_line_detuning(window.length, cell_asked, speed, Omega)
+                need = math.ceil(WINDOW_DETUNING_CYCLES * 2 * math.pi / max(detuning, 1e-12)
+                                 / (window.length / speed) - 1e-9)
+                if need > window.transits:
+                    window = recording_window(window.length, speed, Omega, need, False, True)
+                    notes.append(f"window of {window.transits} transits: {WINDOW_DETUNING_CYCLES:g} periods of "
+                                 f"the smallest detuning {detuning:.3g} (c/ell) of a Doppler line from the "
+                                 "light line")
             length = window.length
             nx = max(int(round(length / cell_asked)), 8)
             if abs(length - asked) > 1e-9 * asked:
@@ -344,10 +411,25 @@ def plan(res: Resolved) -> Plan:
         if abs(cell - cell_asked) > 1e-6 * cell:
             adjustments.append(f"cell size {cell_asked * res.ell:.6g} m -> {cell * res.ell:.6g} m: "
                                f"a whole number of cells ({nx}) in the cell length")
-    half_height = res.L(grid["height"]) if grid.get("height") is not None else \
-        max(2.0 * max([abs(height)] + [abs(y) for y in surfaces]) + 1.0, 2.0)
+    # default interior: the source and the surfaces with room to spare, and at least ten
+    # cells beyond the source's deposit
+    shape_reach = 0.5 * (s["shape_order"] + 1) * s["shape_scale"] * cell
+    if grid.get("height") is not None:
+        half_height = res.L(grid["height"])
+    else:
+        half_height = max(2.0 * max([abs(height)] + [abs(y) for y in surfaces]) + 1.0, 2.0,
+                          abs(height) + shape_reach + 10 * cell)
+        if run["kind"] == "comoving" and s["kind"] == "dipole" and pol != "1d" and speed > 0:
+            reach = evanescent_reach(length, cell, speed, Omega)
+            if abs(height) + reach > half_height:
+                half_height = abs(height) + reach
+                notes.append(f"interior half height {half_height * res.ell:.4g} m: the slowest-decaying "
+                             "evanescent harmonic falls to 1e-3 before the absorbing layer")
     lam0 = 2 * math.pi / (omega0 if omega0 else (w_hi or 1.0))
-    absorber = res.L(grid["absorber"]) if grid.get("absorber") is not None else max(lam0 / 4, 10 * cell)
+    # half a rest-frame wavelength: the layers must also take the grazing waves of harmonics
+    # next to a light-line crossing (measured: at lambda0/4 a harmonic at |k|/omega = 0.994
+    # lost 1e-3 of its power to the reflection, at lambda0/2 nothing above 1e-6)
+    absorber = res.L(grid["absorber"]) if grid.get("absorber") is not None else max(lam0 / 2, 10 * cell)
     if pol == "1d":
         ny, half_height, absorber, height = 1, cell, 0.0, 0.0
     elif run["kind"] == "comoving":
@@ -356,6 +438,13 @@ def plan(res: Resolved) -> Plan:
         ny = int(round(2 * half_height / cell)) + 2 * max(int(round(absorber / cell)), 10)
         nx = nx + 2 * max(int(round(absorber / cell)), 10)
     ramp = s["ramp_periods"] * 2 * math.pi / omega0 if omega0 else 0.0
+    if omega0 and pol != "1d" and run["kind"] == "comoving" and "ramp_periods" not in res.scenario.raw.get("source", {}):
+        # slow enough not to ring the grazing free waves next to a Doppler line
+        slow = RAMP_DETUNING_CYCLES * 2 * math.pi / max(light_line_detuning(length, cell, speed, Omega), 1e-12) / gam
+        if slow > ramp:
+            notes.append(f"switch-on over {slow * omega0 / (2 * math.pi):.3g} rest-frame periods (not "
+                         f"{s['ramp_periods']:g}): slow against the smallest light-line detuning of a Doppler line")
+            ramp = slow
     speed_ramp = res.T(s["speed_ramp"]) if s.get("speed_ramp") is not None else (
         2.0 * lam0 / (2 * math.pi) if s["kind"] == "charge" else 0.0)
     transit = length / speed if speed > 0 else 1.0
