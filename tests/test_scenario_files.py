@@ -211,6 +211,13 @@ def test_check_warns_on_coarse_grid_and_overlap(tmp_path, capsys):
 
 
 # ----------------------------------------------------------------------------- results file
+def test_scenario_documentation_is_the_schema():
+    """docs/scenarios.md carries exactly the key tables the schema renders."""
+    from fdtd.scenario.schema import schema_markdown
+
+    assert schema_markdown() in (ROOT / "docs" / "scenarios.md").read_text()
+
+
 def test_results_documentation_is_the_writers_layout():
     """docs/results.md carries exactly the table the writer's own layout renders."""
     from fdtd.io.results import layout_markdown

@@ -20,7 +20,7 @@ from fdtd.solver.stepper import Solver
 from fdtd.sources.moving import MovingCharge, MovingDipole, NumericalCherenkovWarning
 from fdtd.sources.shapes import Shape
 from fdtd.sources.worldlines import UniformMotion
-from fdtd.space.edges import CPML, Periodic
+from fdtd.space.edges import CPML, Bloch, Periodic
 from fdtd.space.grid import Grid
 from fdtd.space.model import Model
 
@@ -50,14 +50,16 @@ def build(p: Plan) -> Setup:
     else:
         w_low = 0.0
     alpha = CPML_ALPHA_FRACTION * w_low
+    # a phased row (Bloch edge, complex fields) for the isolated emitter's k_x integral
+    x_edge = Bloch(p.bloch_phase) if p.bloch_phase else Periodic()
     if p.polarization == "1d":
-        model = Model(Grid((p.nx,), (p.cell,), "1d"), background=p.background, edges=Periodic())
+        model = Model(Grid((p.nx,), (p.cell,), "1d"), background=p.background, edges=x_edge)
         dt = commensurate_dt(model, p.transit, p.courant)
     elif p.kind == "comoving":
         params = {"alpha_max": alpha} if alpha > 0 else {}
         model = comoving_cell(p.length, p.half_height, p.cell, p.polarization, background=p.background,
                               regions=p.placements, absorber=p.absorber, absorber_params=params,
-                              subsamples=p.subsamples)
+                              subsamples=p.subsamples, x_edge=x_edge)
         dt = commensurate_dt(model, p.transit, p.courant) if p.speed > 0 else None
     else:
         npml = max(int(round(p.absorber / p.cell)), 10)

@@ -24,13 +24,14 @@ from fdtd.space.model import Model
 def comoving_cell(length: float, half_height: float, cell: float, polarization: str = "te",
                   background: Material = VACUUM, regions=(), absorber: float = 1.0,
                   absorber_min_cells: int = 10, y_center: float = 0.0, absorber_params=None,
-                  **model_kw) -> Model:
+                  x_edge=None, **model_kw) -> Model:
     """Periodic-x cell of ``length`` with interior ``|y - y_center| <= half_height``.
 
     The absorbing layers have physical thickness ``absorber`` (normalized
     length; at least ``absorber_min_cells`` cells), so that they stay as thick
     in wavelengths when the cell is refined.  Cell edges sit on integer nodes at
-    x = 0 and y = y_center.
+    x = 0 and y = y_center.  ``x_edge``: the x edge (default periodic; a
+    :class:`fdtd.space.edges.Bloch` edge for a phased row).
     """
     length = _checks.positive("cell length", length)
     half_height = _checks.positive("cell half_height", half_height)
@@ -43,7 +44,8 @@ def comoving_cell(length: float, half_height: float, cell: float, polarization: 
     nyi = int(round(half_height / cell))
     ny = 2 * nyi + 2 * npml
     g = Grid((nx, ny), (cell, cell), polarization, origin=(0.0, y_center - (nyi + npml) * cell))
-    return Model(g, regions, background=background, edges=[Periodic(), CPML(npml, **(absorber_params or {}))],
+    return Model(g, regions, background=background,
+                 edges=[x_edge if x_edge is not None else Periodic(), CPML(npml, **(absorber_params or {}))],
                  **model_kw)
 
 

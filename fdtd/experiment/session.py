@@ -108,6 +108,12 @@ def run_scenario(scenario: Scenario, out=None, progress: bool | None = None, che
                     from fdtd.experiment.grid_check import run_grid_check
 
                     grid = run_grid_check(p, exp.last_spectrum, progress=progress)
+                isolated = None
+                if why == "completed" and p.isolated and p.kind == "comoving" and exp.last_spectrum is not None:
+                    from fdtd.experiment.isolated import isolated_emitter
+
+                    isolated = isolated_emitter(p, exp.last_spectrum, p.isolated_tol, p.isolated_max_runs,
+                                                progress=progress)
                 if why == "interrupted":
                     st = "partial"
                     status, reason = "partial", f"interrupted at step {exp.solver.step_count}"
@@ -118,7 +124,7 @@ def run_scenario(scenario: Scenario, out=None, progress: bool | None = None, che
                                                          "run.max_time")
                 else:
                     st = "complete"
-                outcome = summarise(exp, st, grid)
+                outcome = summarise(exp, st, grid, isolated)
                 write_point(group, p, outcome, pt.values["geometry"]["kind"])
                 summaries.append(outcome.summary)
                 f.flush()

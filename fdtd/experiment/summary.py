@@ -82,7 +82,7 @@ class _Figures:
 GRID_WARNING = 0.1
 
 
-def summarise(exp, status: str, grid: dict | None = None) -> Outcome:
+def summarise(exp, status: str, grid: dict | None = None, isolated: dict | None = None) -> Outcome:
     """The outcome of an executed :class:`~fdtd.experiment.procedure.Experiment`; ``grid``
     is the result of :func:`fdtd.experiment.grid_check.run_grid_check` (its errors are
     added in quadrature to the time errors)."""
@@ -126,6 +126,8 @@ def summarise(exp, status: str, grid: dict | None = None) -> Outcome:
         F.fig("unresolved_power", spec.unresolved, "power")
         if grid is not None:
             _grid_figures(p, spec, grid, F)
+        if isolated is not None:
+            _isolated_figures(p, spec, grid, isolated, F)
         _grid_cutoff_check(p, spec, F)
         if p.source_kind == "dipole" and p.speed > 0:
             _quantum_rates(p, spec, F)
@@ -152,6 +154,44 @@ def summarise(exp, status: str, grid: dict | None = None) -> Outcome:
     _geometry(exp, out)
     out.material_curves = _material_curves(p)
     return out
+
+
+def _isolated_figures(p, spec, grid, iso: dict, F: _Figures) -> None:
+    """The isolated emitter (phased rows integrated over k0, fdtd.experiment.isolated): its
+    figures with the quadrature error and the row run's relative grid error in quadrature."""
+    gerr = (grid or {}).get("errors") or {}
+    vals, errs = iso["values"], iso["errors"]
+
+    def rel_grid(name):
+        # the row run's relative grid error of the same figure (rest-frame powers: of the branch)
+        src = {"rest_down": "normal", "rest_up": "anomalous"}.get(name, name)
+        row = abs(getattr(spec, src)) if hasattr(spec, src) else 0.0
+        return gerr.get(src, 0.0) / row if row > 0 else 0.0
+
+    def err(name):
+        return math.hypot(errs[name], rel_grid(name) * abs(vals[name]))
+
+    for name, attr, q in (("isolated_total_power", "total", "power"), ("isolated_normal_power", "normal", "power"),
+                          ("isolated_anomalous_power", "anomalous", "power"),
+                          ("isolated_drag_force", "drag_force", "force"),
+                          ("isolated_internal_power", "internal_power", "power")):
+        if attr in ("normal", "anomalous") and p.source_kind != "dipole":
+            continue
+        F.fig(name, vals[attr], q, err(attr))
+    if p.source_kind == "dipole":
+        from fdtd.reference.rates import free_space_power
+
+        P0 = free_space_power(p.omega0, abs(p.moment), p.dims, p.axis if p.dims == 2 else "y")
+        for name, attr in (("isolated_decay_rate_ratio", "rest_down"), ("isolated_excitation_rate_ratio", "rest_up")):
+            F.plain(name, vals[attr] / P0, "1", err(attr) / P0, vals[attr] / P0)
+    F.plain("isolated_runs", iso["runs"], "phased-row runs", normalized=iso["runs"])
+    F.plain("isolated_steps", iso["steps"], "time steps of those runs", normalized=iso["steps"])
+    F.plain("isolated_converged", iso["converged"])
+    if not iso["converged"]:
+        F.plain("warning_isolated",
+                f"the k0 integral of the isolated emitter did not reach run.isolated_tolerance = "
+                f"{p.isolated_tol:g} within run.isolated_max_runs = {p.isolated_max_runs} phased runs: its error "
+                "bars say how far off it may be; raise run.isolated_max_runs or lengthen grid.length")
 
 
 def _run_facts(exp, F: _Figures) -> None:
@@ -331,7 +371,8 @@ def _reference(p, out: Outcome, F: _Figures) -> None:
                 msg = (f"the cell's row of {what} (spaced by grid.length) decays at "
                        f"{row:.3g} Gamma_0, an isolated one at {one.ratio_down:.3g} Gamma_0 "
                        "(reference): the cell samples k_x too coarsely for single-emitter "
-                       "rates; lengthen grid.length, or quote the single_emitter_* figures")
+                       "rates; set run.isolated_emitter = true for the simulator's own isolated "
+                       "emitter, or quote the single_emitter_* figures of the reference")
                 F.plain("warning_row_of_emitters", msg)
     except GapwakeError as exc:
         p.notes.append(f"no reference: {exc}")

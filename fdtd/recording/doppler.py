@@ -251,13 +251,19 @@ class DopplerWorkRecorder(_Checkpointable):
         msig = np.fft.fftfreq(nx, d=1.0 / nx).astype(int)
         self.m_index = np.nonzero(np.abs(msig) <= m_max)[0]
         self.m = msig[self.m_index]
-        self.k = 2 * np.pi * self.m / self.L
+        # a Bloch cell (complex fields, u(x + L) = e^{i k0 L} u(x)) samples k0 + 2 pi m / L;
+        # each harmonic is then its own point (no conjugate twin in the same run)
+        self.complex = bool(getattr(solver, "complex_fields", False))
+        bloch = solver.model.bloch if self.complex else None
+        self.k0 = bloch.wrap_phase / self.L if bloch is not None else 0.0
+        self.k = self.k0 + 2 * np.pi * self.m / self.L
         self.lines = (0,) if self.Omega == 0.0 else (1, -1)
         self._k_speed = self.k * self.speed
         self._line_freq = np.array([s_ * self.Omega for s_ in self.lines])
         # node positions along x (the same for every component up to a constant phase,
         # which cancels in J* E): use integer node positions
         self._x_of_i = np.arange(nx) * g.spacing[0]
+        self._bloch_phase = np.exp(-1j * self.k0 * self._x_of_i) if self.complex else None
         # phase table for the sparse transform of the current (bounded size)
         self._table = (np.exp(-1j * np.outer(self._x_of_i, self.k)) if nx * self.k.size <= 4_000_000
                        else None)
@@ -324,8 +330,12 @@ class DopplerWorkRecorder(_Checkpointable):
         # E-bar on the recorded rows, contiguous along x for the transform
         ebar = np.stack([0.5 * (self._e0[ci] + self._rows_of(solver.fields[c])).T
                          for ci, c in enumerate(self.comps)])           # (comp, rows, nx)
-        Epos = np.fft.rfft(ebar, axis=-1)
+        if self.complex:
+            Efull = np.fft.fft(ebar * self._bloch_phase, axis=-1)[..., self.m_index]
+        else:
+            Epos = np.fft.rfft(ebar, axis=-1)
         Jhat = np.zeros((len(self.comps), self.rows.size, self.k.size), dtype=complex)
+        vtype = complex if self.complex else float
         for comp, flat, vals, _e in injections:
             if comp not in self.comps or not flat.size:
                 continue
@@ -340,10 +350,13 @@ class DopplerWorkRecorder(_Checkpointable):
                 ii, pos = flat, np.zeros(flat.size, dtype=np.int64)
             # no BLAS here: its own threads would fight the kernel's OpenMP threads
             if self._table is not None:
-                demod.sparse_dft_table(Jhat[ci], ii, pos, vals.astype(float), self._table)
+                demod.sparse_dft_table(Jhat[ci], ii, pos, vals.astype(vtype), self._table)
             else:
-                demod.sparse_dft(Jhat[ci], ii, pos, vals.astype(float), self.k, self._x_of_i)
-        demod.accumulate_half(self.A, self.B, Jhat, Epos, self._src_index, self._conj, phase, weights)
+                demod.sparse_dft(Jhat[ci], ii, pos, vals.astype(vtype), self.k, self._x_of_i)
+        if self.complex:
+            demod.accumulate(self.A, self.B, Jhat, Efull, phase, weights)
+        else:
+            demod.accumulate_half(self.A, self.B, Jhat, Epos, self._src_index, self._conj, phase, weights)
         w = weights[0]
         self.wsum += weights
         if len(self.lines) == 2:

@@ -74,10 +74,14 @@ class Plan:
     reference: bool
     checkpoint_every: int
     grid_check: bool
+    isolated: bool
+    isolated_tol: float
+    isolated_max_runs: int
     threads: int | None
     passage_span: tuple | None
     subsamples: int
     window_beats: int = 0         # beat periods pi/Omega in the window (0: a charge)
+    bloch_phase: float = 0.0      # k0 L of a phased row (0: the ordinary periodic cell)
     window_mismatch: float = 0.0  # fraction of a beat by which the window misses whole beats
     ell: float = 1.0              # the reference length in metres
     where: str = "scenario"
@@ -475,6 +479,8 @@ def plan(res: Resolved) -> Plan:
              line_component=rec.get("line_component"), line_height=res.L(rec.get("line_height")),
              line_every=rec["line_every"], doppler=rec["doppler"], reference=rec["reference"],
              checkpoint_every=run["checkpoint_every"], grid_check=run["grid_check"],
+             isolated=run["isolated_emitter"], isolated_tol=run["isolated_tolerance"],
+             isolated_max_runs=run["isolated_max_runs"],
              threads=grid.get("threads"),
              passage_span=(res.L(rec["passage_start"]), res.L(rec["passage_stop"]))
              if rec.get("passage_start") is not None and rec.get("passage_stop") is not None else None,

@@ -106,7 +106,7 @@ SCHEMA = {
         "courant": Key("number", False, default=0.95, lo=0.0, hi=1.0, lo_open=True,
                        doc="fraction of the stability limit"),
         "adjust_length": Key("bool", False, default=True,
-                             doc="let the cell length change (by at most 10 %) so that the recording window "
+                             doc="let the cell length change (by at most 20 %) so that the recording window "
                                  "holds whole beat periods of the Doppler lines and no harmonic sits on a "
                                  "light-line crossing; scans keep the first point's length"),
         "subsamples": Key("int", False, default=4, lo=1),
@@ -144,6 +144,13 @@ SCHEMA = {
         "max_time": Key("time", False, doc="co-moving: give up settling after this time"),
         "time": Key("time", False, doc="open: simulated time"),
         "checkpoint_every": Key("int", False, default=0, lo=0, doc="steps between checkpoints (0: none)"),
+        "isolated_emitter": Key("bool", False, default=False,
+                                doc="co-moving: also compute the isolated emitter (not the cell's row of "
+                                    "emitters) from phased rows integrated over k0 (several more runs)"),
+        "isolated_tolerance": Key("number", False, default=1e-2, lo=0.0, lo_open=True,
+                                  doc="relative quadrature error of the isolated emitter's branch powers"),
+        "isolated_max_runs": Key("int", False, default=17, lo=1,
+                                 doc="most phased-row runs for the isolated emitter"),
         "grid_check": Key("bool", False, default=True,
                           doc="co-moving: run the point again on a grid twice as coarse and include the "
                               "difference (the discretization error) in the error estimates"),
@@ -475,3 +482,41 @@ class Scenario:
             data.setdefault(sec, {})[leaf] = val
             pts.append(Scenario(data, f"{self.where} [{key} = {val!r}]", None))
         return pts
+
+
+# ----------------------------------------------------------------------------- documentation
+def _allowed_cell(spec: Key) -> str:
+    if spec.choices:
+        return " / ".join(f"`{c}`" for c in spec.choices)
+    parts = []
+    if spec.lo is not None:
+        parts.append(f"{'>' if spec.lo_open else '≥'} {spec.lo:g}")
+    if spec.hi is not None:
+        parts.append(f"{'<' if spec.hi_open else '≤'} {spec.hi:g}")
+    return ", ".join(parts)
+
+
+def _table(keys: dict) -> str:
+    rows = ["| key | kind | required | default | allowed | meaning |", "|---|---|---|---|---|---|"]
+    for name, spec in keys.items():
+        default = "" if spec.default in (None, ()) else f"`{spec.default}`"
+        doc = spec.doc.replace("|", "\\|")
+        rows.append(f"| `{name}` | {spec.kind} | {'yes' if spec.required else ''} | {default} | "
+                    f"{_allowed_cell(spec)} | {doc} |")
+    return "\n".join(rows)
+
+
+def schema_markdown() -> str:
+    """The key tables of docs/scenarios.md, rendered from :data:`SCHEMA` (a test keeps the
+    file equal to it; ``python -m fdtd.scenario.schema`` prints it)."""
+    parts = []
+    for sec, keys in SCHEMA.items():
+        parts.append(f"### `{sec}`\n\n{_table(keys)}")
+    parts.append(f"### `materials.NAME`\n\n{_table(MATERIAL_KEYS)}")
+    parts.append(f"### `materials.NAME.poles[]`\n\n{_table(POLE_KEYS)}")
+    parts.append(f"### `[[regions]]`\n\n{_table(REGION_KEYS)}")
+    return "\n\n".join(parts)
+
+
+if __name__ == "__main__":   # python -m fdtd.scenario.schema: the key tables of docs/scenarios.md
+    print(schema_markdown())
