@@ -87,7 +87,21 @@ def check(scenario: Scenario) -> list[CheckReport]:
         arrays = sum(a.nbytes for a in s.fields.values()) + sum(P.nbytes + Po.nbytes for P, Po in
                                                                s.polarization.values())
         rate = calibrate(p.polarization, exp.model.max_poles) * (1.6 if s.threads > 1 else 1.0)
-        t_typ, t_max = cells * steps_typ / rate, cells * steps_max / rate
+        # the grid check costs about an eighth (2D) or a quarter (1D) of the run; the isolated
+        # emitter about ten phased runs of complex fields (2.6 times the work per step)
+        extra = 1.0
+        if p.kind == "comoving" and p.grid_check:
+            extra += 0.125 if p.dims == 2 else 0.25
+        if p.kind == "comoving" and p.isolated:
+            extra += 2.6 * min(10, p.isolated_max_runs)
+        t_typ, t_max = extra * cells * steps_typ / rate, extra * cells * steps_max / rate
+        if p.kind == "comoving":
+            left = (p.max_time - p.switch_on) / (p.transits * p.transit)
+            if left < 2:
+                rep.warnings.append(
+                    f"run.max_time = {p.seconds(p.max_time):.3g} s leaves room for {left:.2g} recording windows "
+                    f"of {p.transits} transits: at least two are needed to test the settling (the result "
+                    "will be marked not converged); raise run.max_time")
         to_rad_s = sc.c / ell
         rep.rows += [
             ("point", pt.where),
@@ -102,6 +116,10 @@ def check(scenario: Scenario) -> list[CheckReport]:
             ("source", f"{p.source_kind}, v = {p.speed:.4g} c, height {p.height * ell * 1e9:.4g} nm"
              + (f", rest frequency {p.omega0 * to_rad_s:.4g} rad/s (lab {p.Omega * to_rad_s:.4g})"
                 if p.omega0 else "")),
+            ("window", (f"{p.transits} transits of {p.seconds(p.transit) * 1e15:.4g} fs"
+                        + (f" = {p.window_beats} beat periods pi/Omega" if p.window_beats else "")
+                        + (f" (misses whole beats by {p.window_mismatch:.2f})" if p.window_mismatch > 1e-9 else "")
+                        + f", cell length {p.length * ell * 1e9:.5g} nm") if p.kind == "comoving" else "the whole run"),
             ("steps", f"about {steps_typ:,} (at most {steps_max:,})" if steps_typ != steps_max else f"{steps_typ:,}"),
             ("memory", f"{arrays / 2**20:.0f} MiB of field and polarization arrays"),
             ("run time", f"about {_fmt_time(t_typ)}" + (f" (at most {_fmt_time(t_max)})" if t_max > 1.5 * t_typ

@@ -133,7 +133,8 @@ def _overrides(scenario, pairs):
     return scenario
 
 
-def _print_summary(out, stream=sys.stdout) -> None:
+def _print_summary(out, stream=None) -> None:
+    stream = stream or sys.stdout
     if out.status != "complete":
         stream.write(f"{out.status.upper()}: {out.stop_reason} -- the figures below are not final results\n")
     for k, pt in enumerate(out.points):

@@ -324,6 +324,30 @@ def test_json_summary(tmp_path, capsys):
         assert set(p[key]) >= {"value", "error", "units"}
 
 
+def test_a_run_that_did_not_settle_is_marked_everywhere(tmp_path, capsys):
+    """Exit status 3, the summary's first line, --json, the results file and the figures all
+    say "not converged"."""
+    import matplotlib.image as mpimg
+
+    text = edit(edit(TINY, "snapshots = 5", "snapshots = 0"), "transits = 2",
+                'transits = 2\nsettle_tolerance = 1e-12\nmax_time = "60 fs"\ngrid_check = false')
+    path = write(tmp_path, text)
+    assert main(["run", str(path), "-o", str(tmp_path / "nc.h5")]) == 3
+    out = capsys.readouterr().out
+    assert out.splitlines()[0].startswith("NOT CONVERGED: ")
+    assert main(["run", str(path), "-o", str(tmp_path / "nc2.h5"), "--json"]) == 3
+    data = json.loads(capsys.readouterr().out)
+    assert data["status"] == "not converged" and data["points"][0]["steady"]["value"] is False
+    with h5py.File(tmp_path / "nc.h5", "r") as f:
+        assert f.attrs["status"] == "not converged"
+    assert main(["plot", str(tmp_path / "nc.h5"), "-o", str(tmp_path / "figs"), "--format", "png"]) == 0
+    capsys.readouterr()
+    img = mpimg.imread(tmp_path / "figs" / "spectra.png")[..., :3]
+    top = img[: max(img.shape[0] // 15, 3)]
+    orange = (top[..., 0] > 0.7) & (top[..., 1] > 0.25) & (top[..., 1] < 0.5) & (top[..., 2] < 0.2)
+    assert orange.sum() > 20                 # the banner across the top
+
+
 def test_json_summary_carries_equivalent_quantum_rates(tmp_path, capsys):
     """The run summary turns the branch powers into two-level rates (fdtd/rates.py).  The
     absolute scale is checked here against the 2D free-space rate written out with

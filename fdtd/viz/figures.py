@@ -55,7 +55,22 @@ def _ev(units) -> float:
     return units["angular_frequency"] * sc.hbar / sc.e
 
 
+#: a warning printed across the top of every figure while plot_all draws a point whose run
+#: did not converge (or was interrupted)
+_BANNER = {"text": ""}
+
+
+def _status_banner(res: Results) -> str:
+    status = res.summary.get("status", {}).get("value", res.status) if res.has("summary") else res.status
+    if status == "complete":
+        return ""
+    return f"{str(status).upper()}: {res.f.attrs.get('stop_reason', '')} - not a final result"
+
+
 def _save(fig, outdir: Path, stem: str, formats) -> list[str]:
+    if _BANNER["text"]:
+        fig.text(0.5, 1.0, _BANNER["text"], ha="center", va="bottom", color="#D55E00", fontsize=9,
+                 fontweight="bold")
     paths = []
     for fmt in formats:
         p = outdir / f"{stem}.{fmt}"
@@ -290,9 +305,14 @@ def plot_all(path, outdir=None, formats=("png", "pdf")) -> list[str]:
         for k in points:
             r = res if k is None else res.point(k)
             tag = "" if k is None else f"_point{k}"
+            _BANNER["text"] = _status_banner(r)
             written += plot_geometry(r, outdir, formats, "geometry" + tag)
             written += plot_spectra(r, outdir, formats, "spectra" + tag)
             written += plot_kw_map(r, outdir, formats, "kx_omega" + tag)
             written += plot_ledger(r, outdir, formats, "ledger" + tag)
-        written += plot_scan(res, outdir, formats)
+        _BANNER["text"] = _status_banner(res)
+        try:
+            written += plot_scan(res, outdir, formats)
+        finally:
+            _BANNER["text"] = ""
     return written
