@@ -36,7 +36,7 @@ scheme realises,
    \hat\omega = \frac{\sin\omega\Delta t}{\Delta t},
 
 which tends to the continuum one as ``(omega dt)^2 -> 0``.  The derivation is
-written out in DEVELOPERS.md, "Discrete permittivity".
+written out in docs/theory/yee-and-ade.md, "ADE and the discrete permittivity".
 
 The energy of a pole (used by the ledger) is
 ``W = (Pdot^2 + a0 P^2) / (2 b)`` and the power it hands to its heat bath is
@@ -224,7 +224,7 @@ class NonlocalLorentzPole(Pole):
     On the grid ``nabla^2`` is the standard second-difference Laplacian on
     each polarization component's own lattice, over the nodes wholly inside the
     medium, with ``P = 0`` on its surface imposed through a ghost value (see
-    DEVELOPERS.md, "Nonlocal pole").
+    docs/theory/nonlocal-pole.md).
 
     Parameters
     ----------

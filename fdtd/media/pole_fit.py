@@ -171,7 +171,7 @@ def fit_poles(omega, eps_values, n_lorentz: int = 1, n_drude: int = 0,
     ``delta_eps >= 0``, ``Omega > 0``, ``gamma >= 0``, ``omega_p > 0``,
     ``eps_inf >= eps_inf_min`` -- so every returned parameter set gives
     ``Im eps >= 0`` for ``omega > 0`` and is accepted by
-    :class:`~fdtd.materials.LorentzPole` / :class:`~fdtd.materials.DrudePole`.
+    :class:`~fdtd.media.materials.LorentzPole` / :class:`~fdtd.media.materials.DrudePole`.
 
     Method: bounded trust-region least squares (``scipy.optimize.least_squares``,
     ``method="trf"``, analytic Jacobian) on frequencies scaled by ``max omega``,

@@ -86,7 +86,7 @@ class DopplerSpectrum:
 
         Normal-branch points drain the oscillator (> 0), anomalous ones pump it
         (< 0).  total = motion_power + internal_power.  The rest-frame rate of
-        change of the oscillator's energy is -gamma^2 times this (DEVELOPERS.md).
+        change of the oscillator's energy is -gamma^2 times this (docs/theory/frames-and-drag.md).
         """
         return self._moment(self.power, self.branch * self.internal_frequency)
 
@@ -438,7 +438,7 @@ class DopplerFluxRecorder(_Checkpointable):
 
     For each storage row ``jb`` of the tangential E component, the exact
     discrete upward flux across the face between E row jb and H row jb (the
-    face formula of the energy ledger, DEVELOPERS.md), per unit length along z,
+    face formula of the energy ledger, docs/theory/energy-ledger.md), per unit length along z,
 
         TE:  F = -dx sum_i Ebar_x(i, jb) H_z(i, jb),    TM:  F = dx sum_i Ebar_z(i, jb) H_x(i, jb),
 

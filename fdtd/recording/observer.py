@@ -32,7 +32,7 @@ Shapes
     ``(n_frequencies, *region_shape)``.
 
 Positions
-    Components are staggered (see :mod:`fdtd.grid`): a "line at y = 1.0" is,
+    Components are staggered (see :mod:`fdtd.space.grid`): a "line at y = 1.0" is,
     for each component separately, the storage row whose own y is nearest
     1.0, and the positions along the line differ by component.  Both are
     reported per component.

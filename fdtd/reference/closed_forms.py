@@ -1,6 +1,6 @@
 r"""Closed-form results the simulations are checked against (normalized units, 2D per unit length).
 
-Derivations are in DEVELOPERS.md ("2D Frank-Tamm", "Line sources"); the
+Derivations are in docs/theory/frank-tamm-2d.md and docs/theory/line-sources.md; the
 sources for the 3D originals are cited beside each function.
 
 * 2D Frank-Tamm: a line charge lambda moving at v = beta c along x in a

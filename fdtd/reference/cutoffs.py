@@ -42,7 +42,7 @@ class Cutoff:
         ``m = 1, 2, ...`` count.
 
     A *physical* cutoff is not a Cutoff: it is a material with a
-    :class:`~fdtd.materials.NonlocalLorentzPole` (see :func:`fdtd.reference.modes.with_nonlocal`).
+    :class:`~fdtd.media.materials.NonlocalLorentzPole` (see :func:`fdtd.reference.modes.with_nonlocal`).
     """
 
     k_max: float = math.inf

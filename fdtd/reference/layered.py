@@ -10,7 +10,7 @@ reflection recursion (:func:`transfer_down`, :func:`transfer_up`) in which every
 propagation factor is ``exp(2 i k_y d)`` with ``Im k_y >= 0``, so evanescent
 waves never overflow.  Normalized units (c = eps0 = mu0 = 1).  The sources on
 top, and the powers, are :mod:`fdtd.reference.planar`; the derivation is in
-DEVELOPERS.md, "Planar reference solver".
+docs/theory/planar-reference.md.
 """
 
 from __future__ import annotations

@@ -18,7 +18,7 @@ k, every frequency at which the medium carries a wave.  This module gives them
 
 Units: normalized (c = 1; wavenumbers in 1/ell, frequencies in c/ell for the
 reference length ell of :mod:`fdtd.units`).  Loss is ignored: every pole is
-taken with ``gamma = 0``.  The derivations are in DEVELOPERS.md, "Speed thresholds".
+taken with ``gamma = 0``.  The derivations are in docs/theory/thresholds.md.
 """
 
 from __future__ import annotations

@@ -6,7 +6,7 @@ source moving at v along x at height y = h.  Both 2D polarizations:
 TE_z (line charge, in-plane dipole along x or y) and TM_z (dipole along z).
 Normalized units (c = eps0 = mu0 = 1); powers per unit length along z.
 
-Method (derivation in DEVELOPERS.md, "Planar reference solver").  A source
+Method (derivation in docs/theory/planar-reference.md).  A source
 moving at v with internal lab frequency Omega has, at each k_x, current only at
 ``omega = k_x v + s Omega``.  Each k_x component is a sheet source at y = h
 that imposes jumps on the tangential fields (E_t, H_t) = (E_x, H_z) (TE) or
@@ -159,7 +159,7 @@ class PlanarResult:
     ``branch`` holds per-branch figures keyed by branch (+1 normal, -1
     anomalous, 0 charge): ``branch["power"][b]`` the lab power,
     ``branch["internal_power"][b]`` the internal power sum P s Omega / omega of
-    that branch (used by :mod:`fdtd.rates`: the rest-frame power of branch b is
+    that branch (used by :mod:`fdtd.reference.rates`: the rest-frame power of branch b is
     gamma^2 |internal_power[b]|), ``branch["error"][b]`` the quadrature error
     estimate of that branch's power (controlled on the power; the internal
     power is integrated on the same panels).
@@ -186,7 +186,7 @@ class PlanarReference:
     source : MovingLineSource
     form_factor : callable k -> F(k), optional
         Amplitude form factor of a finite-width source (multiplies the
-        spectrum by |F(k_x)|^2), e.g. ``fdtd.shapes.Shape(3, 2).form_factor(k, dx)``.
+        spectrum by |F(k_x)|^2), e.g. ``fdtd.sources.shapes.Shape(3, 2).form_factor(k, dx)``.
     vertical_form_factor : callable q -> F(q), optional
         Transform of the source's (symmetric) profile along y, called with the
         complex k_y of the source layer.  Every term of the layered response
@@ -228,7 +228,7 @@ class PlanarReference:
     @classmethod
     def like_simulation(cls, stack: Stack, source: MovingLineSource, shape, cell: float,
                         **kw) -> PlanarReference:
-        """A reference with the simulator's source shape (``fdtd.shapes.Shape``) on cells ``cell``.
+        """A reference with the simulator's source shape (``fdtd.sources.shapes.Shape``) on cells ``cell``.
 
         Along x the node-shape transform; along y the node shape, or the
         half-node shape for a dipole along y (its P_y sits on half nodes in y).

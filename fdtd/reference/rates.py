@@ -12,13 +12,13 @@ Heisenberg picture is d sigma e^{-i omega0 t}) gives
     p0 = 2 |d|,      Gamma = P(p0 = 2|d|) / (hbar omega0),
 
 exact in any linear, passive environment at weak coupling (derivation in
-DEVELOPERS.md, "Equivalent quantum rates").  For a source moving at v the
+docs/theory/rates.md).  For a source moving at v the
 field receives energy on two Doppler branches; branch s (+1 normal, -1
 anomalous) changes the emitter's rest-frame energy at the rate
 
     dU'_s/dtau = -gamma^2 P_int,s,     P_int,s = sum_{points of branch s} P s Omega / omega,
 
-(Omega = omega0/gamma; DEVELOPERS.md, "Lab and rest frame, drag and internal
+(Omega = omega0/gamma; docs/theory/frames-and-drag.md, "Lab and rest frame, drag and internal
 power"), so the rest-frame power of branch s is W'_s = gamma^2 s P_int,s
 = gamma sum_s P omega0/omega >= 0 and
 

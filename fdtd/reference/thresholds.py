@@ -20,7 +20,7 @@ milliseconds):
   above a half-space across a vacuum gap (:class:`Geometry`), with three kinds of
   wavenumber cutoff (:class:`Cutoff`): none, the grid's own (``k <= pi/dx`` with
   the scheme's discrete dispersion, optionally only the periodic cell's
-  ``k_m = 2 pi m / L``), and a physical one (a :class:`~fdtd.materials.NonlocalLorentzPole`).
+  ``k_m = 2 pi m / L``), and a physical one (a :class:`~fdtd.media.materials.NonlocalLorentzPole`).
 
 The report table is :func:`threshold_report` (:mod:`fdtd.reference.threshold_report`,
 importable from here too).  This package draws nothing and reads no input: the
@@ -34,7 +34,7 @@ reference length ell of :mod:`fdtd.units`); speeds are fractions of c.
 Loss is ignored for the mode positions: every pole is taken with ``gamma = 0``.
 A lossy medium absorbs some power on every Doppler line, so with loss the
 switch-on is a steep rise over a speed interval of order ``gamma/k``, not a
-step.  The derivations are in DEVELOPERS.md, "Speed thresholds".
+step.  The derivations are in docs/theory/thresholds.md.
 """
 
 from __future__ import annotations

@@ -2,7 +2,7 @@ r"""The energy ledger: stored energy, source work, bath heat and outflow.
 
 The ledger watches an index box inside the absorbing layers (the *ledger
 region*: every node there is advanced by the plain Yee update).  With
-``T^n`` the discrete stored energy of :mod:`fdtd.kernels.energy`, the scheme
+``T^n`` the discrete stored energy of :mod:`fdtd.solver.kernels.energy`, the scheme
 satisfies exactly (to round-off), for every step,
 
 .. math::  T^{n+1} - T^n = W^{n+1/2}_{src} - B^{n} - F^{n+1/2},

@@ -63,7 +63,7 @@ def staggered_zeros(shape, k: int, dtype=np.float64) -> np.ndarray:
 
 
 class Solver:
-    """Time-domain solver for one :class:`~fdtd.model.Model`.
+    """Time-domain solver for one :class:`~fdtd.space.model.Model`.
 
     Parameters
     ----------

@@ -1,7 +1,7 @@
 r"""Moving sources on prescribed world lines: line charges and oscillating dipoles.
 
 **Charges** (2D TE_z; a line charge per unit length along z moving in the
-plane) use the charge-conserving deposition of :func:`fdtd.kernels.deposit.esirkepov_te`:
+plane) use the charge-conserving deposition of :func:`fdtd.solver.kernels.deposit.esirkepov_te`:
 Gauss's law on the grid, ``div D - rho``, is kept at round-off for the whole run.
 
 **Dipoles** carry a rest-frame moment ``p'(tau) = p0 R(tau) cos(omega0 tau + phase)``
@@ -74,7 +74,7 @@ class _MovingSource(Source):
         if not isinstance(worldline, WorldLine):
             raise ParameterError(f"worldline = {worldline!r}: expected an fdtd world line")
         if not isinstance(shape, Shape):
-            raise ParameterError(f"shape = {shape!r}: expected fdtd.shapes.Shape")
+            raise ParameterError(f"shape = {shape!r}: expected fdtd.sources.shapes.Shape")
         self.worldline = worldline
         self.shape = shape
         self.solver = None

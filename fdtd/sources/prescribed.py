@@ -5,7 +5,7 @@ A source hands the solver, once per step, the current density
 one or more electric-field components.  The solver adds ``-dt J / eps_inf``
 to E and books the work ``-dt sum J . (E^n + E^{n+1})/2 dV`` in the ledger.
 
-Moving charges and dipoles live in :mod:`fdtd.moving`.
+Moving charges and dipoles live in :mod:`fdtd.sources.moving`.
 """
 
 from __future__ import annotations

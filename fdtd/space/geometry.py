@@ -1,6 +1,6 @@
 r"""Regions of space and their rasterisation onto the staggered Yee grid.
 
-A *placement* pairs a :class:`Region` with a :class:`~fdtd.materials.Material`;
+A *placement* pairs a :class:`Region` with a :class:`~fdtd.media.materials.Material`;
 later placements are painted over earlier ones, and the background material
 fills the rest.  Each electric-field component is assigned the material found
 in its *dual cell* (the cell of size dx (x dy) centred on the component),

@@ -28,7 +28,7 @@ periodic axis that is the periodic image; on a closed axis the nodes of the
 tangential electric field at index 0 are held at zero (a perfect electric
 conductor), so the wrapped neighbour of the last cell is that same zero.
 Material interfaces normal to an axis are placed best on integer nodes, where
-the tangential electric field lives (see :mod:`fdtd.geometry`).
+the tangential electric field lives (see :mod:`fdtd.space.geometry`).
 """
 
 from __future__ import annotations

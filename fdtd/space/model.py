@@ -5,14 +5,14 @@ the user's geometry into, per electric-field component,
 
 * a *mixture* index per node (int8/16/32 array of the grid shape): the
   (possibly part-filled) effective medium at that node, from
-  :mod:`fdtd.geometry`; conducting-wall nodes get a special mixture whose
+  :mod:`fdtd.space.geometry`; conducting-wall nodes get a special mixture whose
   inverse permittivity is zero, so the kernels need no boundary branches;
 * *row segments*: the run-length encoding of that index along the last axis
   (``row_ptr``, ``seg_start``, ``seg_stop``, ``seg_mix``), which lets the
   kernels use scalar coefficients per segment instead of per-cell
   coefficient arrays (no coefficient traffic from memory);
 
-and it derives the largest stable time step (:func:`fdtd.stability.max_stable_dt`).
+and it derives the largest stable time step (:func:`fdtd.space.stability.max_stable_dt`).
 """
 
 from __future__ import annotations
@@ -111,7 +111,7 @@ class Model:
         axis or ``(lo, hi)`` pairs; default CPML on every side.
     material_map : int array of the grid shape, optional
         Instead of regions: ``material_map[i, j]`` indexes ``materials`` and
-        fills cell (i, j) (see :func:`fdtd.geometry.cell_map_fractions`).
+        fills cell (i, j) (see :func:`fdtd.space.geometry.cell_map_fractions`).
     materials : sequence of Material
         Required with ``material_map``.
     subsamples : int
@@ -284,7 +284,7 @@ class Model:
                 if not self.mixtures[k].is_wall]
 
     def max_stable_dt(self) -> float:
-        """Largest stable time step (normalized), see :mod:`fdtd.stability`."""
+        """Largest stable time step (normalized), see :mod:`fdtd.space.stability`."""
         return max_stable_dt(self.grid.spacing, self.media_present())
 
     def resolve_dt(self, dt: float | None = None, courant: float | None = None,

@@ -7,7 +7,7 @@ obeys
 .. math::  \tilde\omega^2\, \varepsilon_d(\omega) = K^2, \qquad
            K^2 = \sum_i \frac{4}{\Delta_i^2}\sin^2\frac{k_i\Delta_i}{2},
 
-with the discrete permittivity of :meth:`fdtd.materials.Material.discrete_permittivity`.
+with the discrete permittivity of :meth:`fdtd.media.materials.Material.discrete_permittivity`.
 Write ``u = omega_tilde^2 = (4/dt^2) sin^2(omega dt/2)``; real frequencies
 cover ``0 <= u <= 4/dt^2``.  Without loss, ``g(u) = u eps_d(u)`` is strictly
 increasing between its poles (``g'(u) = eps_inf + sum b a0 / (a0-u)^2 > 0``),

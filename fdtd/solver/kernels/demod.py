@@ -1,4 +1,4 @@
-"""Kernels of the Doppler demodulation (see fdtd/spectral.py): plain arrays in, accumulators updated."""
+"""Kernels of the Doppler demodulation (see fdtd/recording/doppler.py): plain arrays in, accumulators updated."""
 
 from __future__ import annotations
 

@@ -19,7 +19,7 @@ so that (rho^{n+1} - rho^n)/dt + div J = 0 exactly with rho = q Sx Sy / dV.
 
 Dipoles: lab polarization density P deposited with node shapes along axes
 where the component sits on integer nodes and half shapes
-(:func:`fdtd.shapes.half_weights`) where it sits on half nodes; the
+(:func:`fdtd.sources.shapes.half_weights`) where it sits on half nodes; the
 magnetization M = P x v of the step uses the mean moment, the chord velocity
 and step-averaged half shapes (:func:`step_half_weights`); then
 ``J = (P^{n+1} - P^n)/dt + curl M`` with the same discrete curl as the E

@@ -1,7 +1,7 @@
 r"""Kernels of the spatially dispersive (nonlocal) pole: its Laplacian term.
 
 A nonlocal pole obeys ``P'' + a1 P' + a0 P - c_L lap P = b E``
-(:class:`fdtd.materials.NonlocalLorentzPole`).  Its central-difference update is
+(:class:`fdtd.media.materials.NonlocalLorentzPole`).  Its central-difference update is
 the local one plus one term,
 
 .. math:: P^{n+1} = c_1 P^n + c_2 P^{n-1} + c_3 E^n + c_4\,(L P^n),

@@ -9,7 +9,7 @@ row-fusion and segment bookkeeping.  Not for production runs.
 ``state`` is a dict of field arrays and ``P``/``Po`` dicts per E component;
 ``cell`` dicts give per-node coefficient arrays built from the mixture maps
 (``inv_eps`` (shape of the grid) and ``c1, c2, c3`` (ns, *shape)).
-``prof`` is a list of :class:`fdtd.boundaries.AxisProfile` (with dt folded
+``prof`` is a list of :class:`fdtd.space.edges.AxisProfile` (with dt folded
 in by the caller as in the kernels: ``ck``, ``b``, ``c`` keys per node type)
 and ``"wrap"``, the factor exp(i theta) a field picks up across the wrap of
 that axis (1 except on a Bloch-periodic x axis, docs/theory/bloch-cell.md):

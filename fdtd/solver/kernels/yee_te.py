@@ -6,7 +6,7 @@ Normalized Maxwell equations (c = eps0 = mu0 = 1)::
     dDx/dt =  dHz/dy - Jx          (J is added by the caller)
     dDy/dt = -dHz/dx - Jy
 
-Staggering (see :mod:`fdtd.grid`): Ex[i, j] at (i+1/2, j), Ey[i, j] at
+Staggering (see :mod:`fdtd.space.grid`): Ex[i, j] at (i+1/2, j), Ey[i, j] at
 (i, j+1/2), Hz[i, j] at (i+1/2, j+1/2); index n wraps to 0.
 
 Arguments
@@ -16,9 +16,9 @@ Ex, Ey, Hz : float64 (nx, ny)
 Px, Pxo, Py, Pyo : float64 (ns, nx, ny)
     Polarization P^n, P^{n-1} per pole slot (P^{n+1}, P^n on exit).
 seg_x, seg_y : tuples (row_ptr, start, stop, mix) of int64 arrays
-    Row segments of the Ex / Ey mixture maps (:class:`fdtd.model.Segments`).
+    Row segments of the Ex / Ey mixture maps (:class:`fdtd.space.model.Segments`).
 coef : tuple (inv_eps, n_poles, c1, c2, c3)
-    Per-mixture tables (:meth:`fdtd.model.Model.kernel_tables`).
+    Per-mixture tables (:meth:`fdtd.space.model.Model.kernel_tables`).
 prof_x, prof_y : tuples (n_lo, n_hi, ck_int, ck_half, b_int, c_int, b_half, c_half)
     ``ck = dt / (Delta kappa)`` at integer / half nodes; CPML recursion
     coefficients b and c (c times dt/Delta: psi arrays hold dt * psi).
