@@ -5,9 +5,18 @@ Prints:
   drag and fluxes), for several geometries (goal: well under a second);
 * the share of a co-moving-cell run spent in the Doppler work and flux recorders,
   measured on one solver with the recorders attached and detached, interleaved
-  (goal: at most 10 %), for a small and a production-sized cell.
+  (goal: at most 10 %), for a small and a production-sized cell: with every harmonic
+  recorded at every step (the most it can cost), and with the settings the experiment
+  procedure chooses (``Experiment._start_recording`` in fdtd/experiment/procedure.py:
+  harmonics up to k_x dx = pi/3, i.e. m_max = nx // M_MAX_FRACTION_2D, sampled every
+  ``auto_sampling`` steps near the Nyquist rate of the highest recorded line).
 
-Usage: python benchmarks/bench_analysis.py
+The cells are built by the product: a scenario (natural units) is planned and set up by
+:class:`fdtd.experiment.procedure.Experiment` (the same model, CPML frequency shift,
+commensurate time step and source as ``gapwake run``), and the procedure's own recorders
+are attached by its record-phase method.
+
+Usage: NUMBA_NUM_THREADS=1 python benchmarks/bench_analysis.py
 """
 
 from __future__ import annotations
@@ -21,13 +30,14 @@ import numpy as np
 sys.path.insert(0, os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
 
 import fdtd as f  # noqa: E402
-from fdtd.sources.moving import MovingDipole  # noqa: E402
-from fdtd.reference.planar import Bulk1D, MovingLineSource, PlanarReference, Stack  # noqa: E402
-from fdtd.experiment.cell import auto_sampling, commensurate_dt, comoving_cell  # noqa: E402
+from fdtd.experiment.procedure import Experiment  # noqa: E402
 from fdtd.recording.doppler import DopplerFluxRecorder, DopplerWorkRecorder  # noqa: E402
-from fdtd.sources.worldlines import UniformMotion  # noqa: E402
+from fdtd.reference.planar import Bulk1D, MovingLineSource, PlanarReference, Stack  # noqa: E402
+from fdtd.scenario.plan import plan as make_plan  # noqa: E402
+from fdtd.scenario.schema import Scenario  # noqa: E402
 
 LZ = f.Material(1.0, (f.LorentzPole(2.0, 1.0, 0.1),), "lz")
+V, W0, H = 0.6, 1.2, 0.5
 
 
 def reference_timing():
@@ -48,44 +58,57 @@ def reference_timing():
     print(f"  1D bulk (gamma 0.01):  {1e3 * (time.perf_counter() - t0):7.1f} ms")
 
 
-def recorder_overhead(length, cell, steps=200, repeats=3, m_max=None, every=1, half_height=3.0):
-    v, w0 = 0.6, 1.2
-    model = comoving_cell(length, half_height, cell, "te", regions=[(f.HalfSpace("y", below=0.0), LZ)],
-                          absorber=1.5)
-    s = f.Solver(model, dt=commensurate_dt(model, length / v))
-    src = MovingDipole(1.0, w0, UniformMotion((0.0, 0.5), (v, 0.0)), axis="y", ramp=5.0)
-    s.attach(src)
-    s.step(5)
-    rows = [model.grid.index_of("Ex", (0, y))[1] for y in (1.2, 0.0)]
-    recs = [DopplerWorkRecorder(s, src, v, src.lab_frequency(), start=0.0, m_max=m_max, every=every),
-            DopplerFluxRecorder(s, v, src.lab_frequency(), rows, start=0.0, m_max=m_max, every=every)]
+def experiment(length, cell, half_height):
+    """The procedure's set-up of a dipole above the lossy half-space (threads: NUMBA_NUM_THREADS)."""
+    sc = Scenario({"units": {"mode": "natural", "frequency": "1 eV"},
+                   "materials": {"lz": {"kind": "poles", "eps_inf": 1.0,
+                                        "poles": [{"kind": "lorentz", "delta_eps": 2.0, "omega": 1.0,
+                                                   "gamma": 0.1}]}},
+                   "geometry": {"kind": "half-space", "material": "lz"},
+                   "grid": {"cell": cell, "length": length, "height": half_height, "absorber": 1.5},
+                   "source": {"kind": "dipole", "speed": V, "height": H, "frequency": W0, "axis": "y"},
+                   "record": {"flux_heights": [1.2, 0.0]}}, where="bench")
+    return Experiment(make_plan(sc.resolve()), progress=False)
+
+
+def recorder_overhead(length, cell, steps=200, repeats=3, half_height=3.0):
+    exp = experiment(length, cell, half_height)
+    s, p = exp.solver, exp.plan
+    s.advance(steps=5, progress=False)
+    # the procedure's recorders, attached as its record phase does
+    exp.state["record_start_step"] = s.step_count
+    exp._start_recording()
+    auto = [r for r in (exp.work, exp.flux) if r is not None]
+    rows = exp.flux.rows if exp.flux is not None else []
+    t0 = s.time
+    full = [DopplerWorkRecorder(s, exp.source, p.speed, p.Omega, start=t0, m_max=None, every=1),
+            DopplerFluxRecorder(s, p.speed, p.Omega, rows, start=t0, m_max=None, every=1)]
     s.observers = []
-    best = {False: np.inf, True: np.inf}
+    nx, ny = exp.model.grid.shape
+    label = {"all": "every harmonic, every step",
+             "auto": f"procedure: m_max {int(np.max(exp.work.m))}, every {exp.work.every}"}
+    best = {"off": np.inf, "all": np.inf, "auto": np.inf}
     for _ in range(repeats):
-        for on in (False, True):
-            s.observers = list(recs) if on else []
-            t0 = time.perf_counter()
-            s.step(steps)
-            best[on] = min(best[on], (time.perf_counter() - t0) / steps)
-    share = (best[True] - best[False]) / best[True]
-    what = f"m_max {'all' if m_max is None else m_max}, every {every}"
-    print(f"  cell {length} x {2 * half_height:g} + layers, dx = {cell} ({model.grid.shape[0]} x {model.grid.shape[1]}), "
-          f"{what}: step {1e3 * best[False]:.2f} ms, with recorders {1e3 * best[True]:.2f} ms: "
-          f"share {share:.1%} (goal <= 10%)")
+        for key, recs in (("off", []), ("all", full), ("auto", auto)):
+            s.observers = list(recs)
+            t1 = time.perf_counter()
+            s.advance(steps=steps, progress=False)
+            best[key] = min(best[key], (time.perf_counter() - t1) / steps)
+    s.observers = []
+    print(f"  cell {p.length:g} x {2 * p.half_height:g} + layers, dx = {p.cell:g} ({nx} x {ny}), "
+          f"step {1e3 * best['off']:.2f} ms:")
+    for key in ("all", "auto"):
+        share = (best[key] - best["off"]) / best[key]
+        print(f"    {label[key]:34s} with recorders {1e3 * best[key]:.2f} ms, share {share:.1%} "
+              f"(ratio {best[key] / best['off']:.3f}; goal share <= 10%)")
 
 
 def main():
     reference_timing()
-    print("Doppler work + flux recorders:")
+    print(f"Doppler work + flux recorders (threads: {os.environ.get('NUMBA_NUM_THREADS', 'all')}):")
     for length, cell, steps, hh in ((9.2, 0.1, 200, 3.0), (9.15, 0.025, 60, 3.0), (20.0, 0.02, 30, 3.0),
                                     (20.0, 0.02, 20, 10.0)):
-        nx = int(round(length / cell))
         recorder_overhead(length, cell, steps, half_height=hh)
-        # the settings dipole_in_comoving_cell chooses ("auto"): k_x dx <= pi/3, every near Nyquist
-        model = comoving_cell(length, hh, cell, "te")
-        dt = commensurate_dt(model, length / 0.6)
-        every = auto_sampling(dt, cell, 0.6, 0.96, 2 * np.pi * (nx // 6) / length)
-        recorder_overhead(length, cell, steps, m_max=nx // 6, every=every, half_height=hh)
 
 
 if __name__ == "__main__":

@@ -12,7 +12,6 @@ The command line (``gapwake``) is a thin layer over these functions.
 
 from __future__ import annotations
 
-import math
 import time
 from dataclasses import dataclass, field
 

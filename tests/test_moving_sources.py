@@ -102,8 +102,8 @@ def test_dipole_current_is_the_limit_of_two_opposite_charges(axis):
         def pos(sign, t, mk=mk, q=q):
             return np.asarray(wl.position(t)) + sign * 0.5 * mk.lab_moment(t)[:2] / q
 
-        errs.append(np.abs(run(lambda: [MovingCharge(q, CallableWorldLine(lambda t: pos(1, t))),
-                                        MovingCharge(-q, CallableWorldLine(lambda t: pos(-1, t)))])
+        errs.append(np.abs(run(lambda q=q, pos=pos: [MovingCharge(q, CallableWorldLine(lambda t: pos(1, t))),
+                                                     MovingCharge(-q, CallableWorldLine(lambda t: pos(-1, t)))])
                            - ref).max() / np.abs(ref).max())
     assert errs[-1] < 4e-4, errs                            # measured 2.4e-4 (x), 1.3e-4 (y)
     assert 1.9 < loglog_slope(seps, errs) < 2.1, errs       # measured 2.001 (x), 2.000 (y)

@@ -11,7 +11,6 @@ from __future__ import annotations
 
 import math
 
-import numpy as np
 
 from fdtd import _checks
 from fdtd.space.edges import CPML, Periodic

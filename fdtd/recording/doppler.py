@@ -528,7 +528,7 @@ class DopplerFluxRecorder(_Checkpointable):
                 per_window.append(self.sign * (dx / self.nx)
                                   * np.real(np.conj(A[wi, :, r]) * B[wi, :, r]) / W**2)
             kx, om, br = [], [], []
-            for a, s in enumerate(self.lines):
+            for s in self.lines:
                 w = self.k * self.speed + s * self.Omega
                 pos = w >= 0
                 kx.append(np.where(pos, self.k, -self.k))
@@ -538,7 +538,7 @@ class DopplerFluxRecorder(_Checkpointable):
             key = np.round(kx * 1e9).astype(np.int64) * 3 + br
             uniq, inv = np.unique(key, return_inverse=True)
 
-            def combine(vals):
+            def combine(vals, uniq=uniq, inv=inv):
                 o = np.zeros(uniq.size)
                 np.add.at(o, inv, vals)
                 return o

@@ -120,7 +120,7 @@ class ThresholdReport:
                              else "anomalous Doppler", sp, k1, k2, w1, w2, t.branch, t.set_by])
                 first = False
         width = [max(len(h), *(len(b[i]) for b in body)) if body else len(h) for i, h in enumerate(head)]
-        fmt = "  ".join("{:<%d}" % w for w in width)
+        fmt = "  ".join(f"{{:<{w}}}" for w in width)
         lines.append(fmt.format(*head))
         lines.append(fmt.format(*["-" * w for w in width]))
         lines += [fmt.format(*b) for b in body]

@@ -442,7 +442,8 @@ def plan(res: Resolved) -> Plan:
         ny = int(round(2 * half_height / cell)) + 2 * max(int(round(absorber / cell)), 10)
         nx = nx + 2 * max(int(round(absorber / cell)), 10)
     ramp = s["ramp_periods"] * 2 * math.pi / omega0 if omega0 else 0.0
-    if omega0 and pol != "1d" and run["kind"] == "comoving" and "ramp_periods" not in res.scenario.raw.get("source", {}):
+    ramp_given = "ramp_periods" in res.scenario.raw.get("source", {})
+    if omega0 and pol != "1d" and run["kind"] == "comoving" and not ramp_given:
         # slow enough not to ring the grazing free waves next to a Doppler line
         slow = RAMP_DETUNING_CYCLES * 2 * math.pi / max(light_line_detuning(length, cell, speed, Omega), 1e-12) / gam
         if slow > ramp:

@@ -19,7 +19,7 @@ import copy
 import difflib
 import math
 import tomllib
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from pathlib import Path
 
 from fdtd.scenario import quantities as Q
@@ -102,7 +102,9 @@ SCHEMA = {
         "cells_per_wavelength": Key("number", False, lo=4.0, doc="or: cells per shortest wavelength"),
         "length": Key("length", True, lo=0.0, lo_open=True, doc="cell length along x (co-moving) or domain length"),
         "height": Key("length", False, lo=0.0, lo_open=True, doc="interior half height (co-moving) / height"),
-        "absorber": Key("length", False, doc="absorbing-layer thickness (default: half the source's rest-frame wavelength, >= 10 cells)"),
+        "absorber": Key("length", False,
+                        doc="absorbing-layer thickness (default: half the source's rest-frame wavelength, "
+                            ">= 10 cells)"),
         "courant": Key("number", False, default=0.95, lo=0.0, hi=1.0, lo_open=True,
                        doc="fraction of the stability limit"),
         "adjust_length": Key("bool", False, default=True,
