@@ -92,3 +92,22 @@ def test_vacuum_dipole_gives_the_exact_discrete_power_with_default_settings(omeg
     assert abs(sim.anomalous) < 1e-6 * total and abs(ref[sim.branch == -1].sum()) < 1e-12 * total
     big = np.abs(ref) > 1e-3 * total
     assert np.all(np.abs(sim.power[big] / ref[big] - 1) < 3e-4)
+
+
+def test_a_grating_fixes_the_cell_length():
+    """A structure periodic along x (a grating) must fit whole periods into the cell: the
+    plan keeps the length as given, and refuses a length that is not a multiple."""
+    from fdtd.scenario.plan import plan
+    from fdtd.scenario.quantities import ScenarioError
+
+    def case(length):
+        return scenario({"g": {"kind": "constant", "eps": 4.0}}, {},
+                        {"cell": 0.1, "length": length},
+                        {"kind": "dipole", "speed": 0.6, "height": 0.6, "frequency": 1.2, "axis": "y"},
+                        name="grating").set("regions", [{"shape": "grating", "material": "g", "period": 1.5,
+                                                        "duty": 0.5, "top": 0.0, "depth": 0.3}])
+
+    p = plan(case(9.0).resolve())
+    assert p.length == pytest.approx(9.0, rel=1e-12) and any("grating" in n for n in p.notes)
+    with pytest.raises(ScenarioError, match="whole number of grating periods"):
+        plan(case(9.4).resolve())

@@ -384,7 +384,18 @@ def plan(res: Resolved) -> Plan:
     if run["kind"] == "comoving":
         if s["kind"] == "dipole" and speed > 0:
             asked = length
-            window = recording_window(length, speed, Omega, run["transits"], grid["adjust_length"],
+            adjust = grid["adjust_length"]
+            periods = [res.L(r["period"]) for r in v["regions"] if r["shape"] == "grating"]
+            if periods and adjust:
+                # a structure periodic along x fixes the cell: it must hold whole periods
+                adjust = False
+                notes.append("cell length kept as given: a grating fixes it (whole periods per cell)")
+            for per in periods:
+                if abs(length / per - round(length / per)) > 1e-6:
+                    raise ScenarioError(
+                        f"{where}: grid.length = {length * res.ell:.6g} m is not a whole number of grating "
+                        f"periods ({per * res.ell:.6g} m): a periodic cell must hold whole periods")
+            window = recording_window(length, speed, Omega, run["transits"], adjust,
                                       check_light_line=pol != "1d")     # 1D: a uniform medium
             if pol != "1d":
                 # long enough to tell each line from the grazing free waves next to it
