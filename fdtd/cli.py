@@ -55,16 +55,19 @@ def build_parser() -> argparse.ArgumentParser:
                                     "scan overview.")
     pl.add_argument("results")
     pl.add_argument("-o", "--outdir", help="folder for the figures (default: next to the results file)")
-    pl.add_argument("--format", default="png,pdf", help="comma-separated formats (default png,pdf)")
+    pl.add_argument("--format", default="png,pdf",
+                    help=f"comma-separated formats among {', '.join(FIGURE_FORMATS)} (default png,pdf)")
 
     a = sub.add_parser("animate", help="animation of a field component from the stored snapshots",
                        description="MP4 (through imageio-ffmpeg) or GIF of the stored snapshots, with a "
                                    "fixed symmetric colour scale, the source marked and the surfaces drawn.")
     a.add_argument("results")
-    a.add_argument("-o", "--output", help="movie.mp4 or movie.gif (default: results name .gif)")
-    a.add_argument("--component", help="field component (default: the one stored)")
+    a.add_argument("-o", "--output", help="movie.mp4 or movie.gif (default: the results name with .gif)")
+    a.add_argument("--component", choices=COMPONENTS, metavar="COMPONENT",
+                   help=f"field component, one of {', '.join(COMPONENTS)} that the file stores "
+                        "(default: the one stored)")
     a.add_argument("--energy", action="store_true", help="show the squared field instead")
-    a.add_argument("--fps", type=int, default=12)
+    a.add_argument("--fps", type=_fps, default=12, help="frames per second of the movie, 1 to 120 (default 12)")
 
     t = sub.add_parser(
         "threshold", help="analytic speed thresholds (Cherenkov, anomalous Doppler) for a material",
@@ -120,17 +123,98 @@ def _diagnostics(quiet: bool) -> None:
     logger.propagate = False
 
 
-def _overrides(scenario, pairs):
+#: field components a snapshot can hold (which of them a file has depends on its polarization)
+COMPONENTS = ("Ex", "Ey", "Ez", "Hx", "Hy", "Hz")
+#: movie formats of ``gapwake animate``
+MOVIE_SUFFIXES = (".gif", ".mp4")
+#: figure formats of ``gapwake plot``
+FIGURE_FORMATS = ("png", "pdf", "svg", "eps", "ps")
+
+
+def _fps(text: str) -> int:
+    """``--fps``: a whole number of frames per second, 1 to 120."""
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"--fps = {text!r}: expected a whole number of frames per second "
+                                         "from 1 to 120") from None
+    if not 1 <= value <= 120:
+        raise argparse.ArgumentTypeError(f"--fps = {value}: expected a whole number of frames per second "
+                                         "from 1 to 120")
+    return value
+
+
+def _override(pair: str):
+    """(key, value) of one ``--set KEY=VALUE``: the value read as a TOML value; a bare word or a
+    quantity without quotes (``0.4 c``) is taken as that string, anything else that is not a
+    whole TOML value (an unbalanced quote or bracket) is refused."""
     import tomllib
 
+    from fdtd.scenario.quantities import ScenarioError
+
+    example = 'expected KEY=VALUE, e.g. --set source.speed="0.4 c"'
+    if "=" not in pair:
+        raise ScenarioError(f"--set {pair!r}: no '=': {example}")
+    key, _, raw = pair.partition("=")
+    if not key.strip():
+        raise ScenarioError(f"--set {pair!r}: the key before '=' is empty: {example}")
+    if not raw.strip():
+        raise ScenarioError(f"--set {pair!r}: the value after '=' is empty: {example}")
+    if "\n" in raw or "\r" in raw:
+        raise ScenarioError(f"--set {pair!r}: the value spans several lines: {example}")
+    try:
+        parsed = tomllib.loads(f"v = {raw}")
+    except (tomllib.TOMLDecodeError, RecursionError) as exc:
+        if any(ch in raw for ch in "\"'[]{}#="):
+            raise ScenarioError(f"--set {pair!r}: the value {raw.strip()!r} is not a TOML value "
+                                f"({str(exc) or 'nested too deeply'}): {example} (a string in matching "
+                                "quotes, a number, true/false, or a list [..])") from None
+        return key.strip(), raw.strip()          # a bare word or quantity: source.speed=0.4 c
+    if list(parsed) != ["v"]:
+        raise ScenarioError(f"--set {pair!r}: the value {raw.strip()!r} holds more than one value: {example}")
+    return key.strip(), parsed["v"]
+
+
+def _overrides(scenario, pairs):
     for pair in pairs:
-        key, _, raw = pair.partition("=")
-        try:
-            value = tomllib.loads(f"v = {raw}")["v"]
-        except tomllib.TOMLDecodeError:
-            value = raw
-        scenario = scenario.set(key.strip(), value)
+        key, value = _override(pair)
+        scenario = scenario.set(key, value)
     return scenario
+
+
+def _check_resume(path: str, scenario) -> None:
+    """Refuse ``--resume`` with a file that is not a checkpoint of this scenario before anything is
+    written (the loader checks the same later, once the results file is open)."""
+    from pathlib import Path
+
+    import h5py
+
+    from fdtd.experiment.session import plan_points
+    from fdtd.io.checkpoint import FORMAT
+    from fdtd.scenario.quantities import ScenarioError
+
+    p = Path(path)
+    what = "a checkpoint file written by gapwake run --checkpoint for this scenario"
+    if not p.exists():
+        raise ScenarioError(f"--resume {path}: no such file: expected {what}")
+    if not p.is_file():
+        raise ScenarioError(f"--resume {path}: not a file: expected {what}")
+    if not h5py.is_hdf5(p):
+        raise ScenarioError(f"--resume {path}: not a checkpoint (not an HDF5 file"
+                            f"{', it is empty' if p.stat().st_size == 0 else ''}): expected {what}")
+    try:
+        with h5py.File(p, "r") as f:
+            fmt = f.attrs.get("format")
+            text = f.attrs.get("scenario_text")
+    except OSError as exc:
+        raise ScenarioError(f"--resume {path}: cannot read it ({exc}): expected {what}") from None
+    if fmt != FORMAT:
+        raise ScenarioError(f"--resume {path}: not a gapwake checkpoint (format {fmt!r}, expected {FORMAT!r}): "
+                            f"expected {what}")
+    plans = {pl.to_json() for _pt, pl in plan_points(scenario)}
+    if text not in plans:
+        raise ScenarioError(f"--resume {path}: the checkpoint belongs to a different scenario (or other "
+                            "--set values): expected a checkpoint of this scenario as given")
 
 
 def _print_summary(out, stream=None) -> None:
@@ -178,6 +262,8 @@ def main(argv=None) -> int:
             return 0
         if args.command == "run":
             sc = _overrides(api.load(args.file), args.set)
+            if args.resume is not None:
+                _check_resume(args.resume, sc)
             quiet = args.quiet or args.json
             progress = None if not quiet else False
             _diagnostics(quiet)
@@ -197,13 +283,23 @@ def main(argv=None) -> int:
         if args.command == "plot":
             from fdtd.viz.figures import plot_all
 
-            paths = plot_all(args.results, args.outdir, tuple(x.strip() for x in args.format.split(",")))
+            formats = tuple(x.strip().lower() for x in args.format.split(","))
+            bad = [x for x in formats if x not in FIGURE_FORMATS]
+            if bad or not formats:
+                raise ParameterError(f"--format = {args.format!r}: expected comma-separated formats among "
+                                     f"{', '.join(FIGURE_FORMATS)}")
+            paths = plot_all(args.results, args.outdir, formats)
             for pth in paths:
                 print(pth)
             return 0
         if args.command == "animate":
+            from pathlib import Path
+
             from fdtd.viz.animation import animate
 
+            if args.output is not None and Path(args.output).suffix.lower() not in MOVIE_SUFFIXES:
+                raise ParameterError(f"--output = {args.output!r}: expected a movie file ending in "
+                                     f"{' or '.join(MOVIE_SUFFIXES)}")
             print(animate(args.results, args.output, args.component, fps=args.fps, energy=args.energy))
             return 0
         if args.command == "demo":
@@ -219,7 +315,9 @@ def main(argv=None) -> int:
         return 2
     except GapwakeError as exc:            # the run itself failed (e.g. an instability)
         print(f"gapwake: {type(exc).__name__}: {exc}", file=sys.stderr)
-        return 1
+        # a checkpoint refused by its loader is a bad input, not a failed run
+        refused_checkpoint = args.command == "run" and args.resume and str(exc).startswith(str(args.resume))
+        return 2 if refused_checkpoint else 1
     except ValueError as exc:              # plot/animate: a results file without what was asked
         if args.command not in ("plot", "animate"):
             raise

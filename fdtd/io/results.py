@@ -379,12 +379,37 @@ class Results:
     """Read-only view of a results file (numpy arrays out)."""
 
     def __init__(self, path, point: int | None = None):
+        from fdtd.errors import ParameterError
+
         self.path = Path(path)
-        self.f = h5py.File(self.path, "r")
+        what = "expected a results file written by gapwake run (HDF5)"
+        if not self.path.exists():
+            raise FileNotFoundError(f"{self.path}: no such file: {what}")
+        if not self.path.is_file():
+            raise ParameterError(f"{self.path}: not a file: {what}")
+        if self.path.stat().st_size == 0 or not h5py.is_hdf5(self.path):
+            empty = ", it is empty" if self.path.stat().st_size == 0 else ""
+            raise ParameterError(f"{self.path}: not an HDF5 file{empty}: {what}")
+        try:
+            self.f = h5py.File(self.path, "r")
+        except OSError as exc:
+            raise ParameterError(f"{self.path}: cannot be read ({exc}): {what}") from None
         if self.f.attrs.get("format") != FORMAT:
+            found = self.f.attrs.get("format")
             self.f.close()
-            raise ValueError(f"{self.path}: not a gapwake results file")
-        self.root = self.f if point is None else self.f[f"scan/point_{point}"]
+            raise ParameterError(f"{self.path}: not a gapwake results file (format attribute {found!r}, "
+                                 f"expected {FORMAT!r}): {what}")
+        if point is None:
+            self.root = self.f
+        else:
+            n = len(self.f["scan"]) if "scan" in self.f else 1
+            key = f"scan/point_{point}"
+            if isinstance(point, bool) or not isinstance(point, int) or key not in self.f:
+                self.f.close()
+                raise ParameterError(f"{self.path}: point = {point!r}: expected a scan point index from 0 to "
+                                     f"{n - 1}" if "scan" in self.f else
+                                     f"{self.path}: point = {point!r}: the file holds no scan (use point=None)")
+            self.root = self.f[key]
 
     @property
     def status(self) -> str:

@@ -222,6 +222,15 @@ DEFAULT_WINDOWS = 8
 MIN_BEATS = 4
 
 
+#: most cells a plan sizes (beyond it planning stops: 1e9 cells of a 2D grid without poles
+#: already hold 24 GB of fields); the memory guard of the run is stricter and machine-dependent
+MAX_CELLS = 10**9
+#: most transit times in one recording window (a window this long is a mistake in the inputs)
+MAX_WINDOW_TRANSITS = 10**6
+#: most (M, K) pairs the window search tries (ordinary cells need a few hundred)
+WINDOW_SEARCH_BUDGET = 200_000
+
+
 @dataclass(frozen=True)
 class Window:
     """The recording window: ``transits`` transit times L/v that are also ``beats`` whole beat
@@ -250,13 +259,24 @@ def recording_window(length: float, speed: float, Omega: float, min_transits: in
     if Omega <= 0 or speed <= 0:
         return Window(length, min_transits, 0, 0.0)
     transit_over_beat = length * Omega / (math.pi * speed)      # beat periods per transit
-    m0 = max(min_transits, math.ceil(MIN_BEATS / transit_over_beat - 1e-9))
+    m_need = MIN_BEATS / transit_over_beat if transit_over_beat > 0 else math.inf
+    if not (max(min_transits, m_need) <= MAX_WINDOW_TRANSITS):
+        raise ScenarioError(
+            f"the recording window needs at least {max(min_transits, m_need):.3g} transit times (run.transits = "
+            f"{min_transits}, and {MIN_BEATS} beat periods pi/Omega of the Doppler lines at {transit_over_beat:.3g} "
+            f"beat periods per transit): expected at most {MAX_WINDOW_TRANSITS:g}; lower run.transits, or raise "
+            "grid.length, source.frequency or source.speed")
+    m0 = max(min_transits, math.ceil(m_need - 1e-9))
     m_hi = max_transits or 4 * m0
+    budget = WINDOW_SEARCH_BUDGET          # bounds the search whatever the inputs
     if adjust:
         best = None
         for M in range(m0, m_hi + 1):
             k_lo = max(int(math.ceil(M * transit_over_beat * (1 - MAX_LENGTH_CHANGE))), 2)
             k_hi = max(int(math.floor(M * transit_over_beat * (1 + MAX_LENGTH_CHANGE))), k_lo)
+            budget -= k_hi - k_lo + 1
+            if budget < 0:
+                break
             for K in range(k_lo, k_hi + 1):
                 L = K * math.pi * speed / (M * Omega)
                 change = abs(L / length - 1)
@@ -271,7 +291,7 @@ def recording_window(length: float, speed: float, Omega: float, min_transits: in
         if best is not None:
             return best[1]
     best = None
-    for M in range(m0, m_hi + 1):
+    for M in range(m0, min(m_hi, m0 + WINDOW_SEARCH_BUDGET) + 1):
         beats = M * transit_over_beat
         miss = abs(beats - round(beats))
         if best is None or miss < best.mismatch - 1e-12:
@@ -379,6 +399,9 @@ def plan(res: Resolved) -> Plan:
     cell = _cell_size(res, grid, w_hi, height, surfaces, notes)
     cell_asked = cell
     length = res.L(grid["length"])
+    # 2D grids have at least 20 rows (the absorbing layers): refuse here what cannot fit, before
+    # any search over cell lengths or harmonics
+    _check_cells(res, length / cell if cell > 0 else math.inf, 1 if pol == "1d" else 20, cell)
     nx = max(int(round(length / cell)), 8)
     window = Window(length, run["transits"], 0, 0.0)
     if run["kind"] == "comoving":
@@ -402,6 +425,13 @@ def plan(res: Resolved) -> Plan:
                 detuning = light_line_detuning(window.length, cell_asked, speed, Omega)
                 need = math.ceil(WINDOW_DETUNING_CYCLES * 2 * math.pi / max(detuning, 1e-12)
                                  / (window.length / speed) - 1e-9)
+                if need > MAX_WINDOW_TRANSITS:
+                    raise ScenarioError(
+                        f"{where}: a Doppler line of this cell lies {detuning:.3g} (c/ell) from the vacuum light "
+                        f"line of its harmonic (the cell length {window.length * res.ell:.6g} m puts a harmonic on "
+                        f"a light-line crossing at {speed:.4g} c): telling it from the grazing free waves would "
+                        f"take a window of {need:.3g} transits, expected at most {MAX_WINDOW_TRANSITS:g}; change "
+                        "grid.length or source.speed a little")
                 if need > window.transits:
                     window = recording_window(window.length, speed, Omega, need, False, True)
                     notes.append(f"window of {window.transits} transits: {WINDOW_DETUNING_CYCLES:g} periods of "
@@ -452,6 +482,10 @@ def plan(res: Resolved) -> Plan:
     else:
         ny = int(round(2 * half_height / cell)) + 2 * max(int(round(absorber / cell)), 10)
         nx = nx + 2 * max(int(round(absorber / cell)), 10)
+    _check_cells(res, nx, ny, cell)
+    _check_recorders(res, rec, run["kind"], pol, half_height, length, cell)
+    if run["kind"] == "open":
+        _check_open_path(res, s, run, pol, speed, length, half_height, absorber, cell)
     ramp = s["ramp_periods"] * 2 * math.pi / omega0 if omega0 else 0.0
     ramp_given = "ramp_periods" in res.scenario.raw.get("source", {})
     if omega0 and pol != "1d" and run["kind"] == "comoving" and not ramp_given:
@@ -504,6 +538,67 @@ def plan(res: Resolved) -> Plan:
         p.stack = stack            # the uniform medium: Bulk1D uses stack.bottom
     plan_warnings(p, res)
     return p
+
+
+def _given(res: Resolved, section: str, key: str) -> str:
+    """``section.key = <value as written>`` (or ``section.key`` at its default)."""
+    raw = res.scenario.raw.get(section, {})
+    return f"{section}.{key} = {raw[key]!r}" if key in raw else f"{section}.{key} (default)"
+
+
+def _check_cells(res: Resolved, nx: float, ny: float, cell: float) -> None:
+    """Refuse a grid of more than MAX_CELLS cells (before anything sizes arrays or loops over them)."""
+    n = nx * ny
+    if n <= MAX_CELLS:
+        return
+    ell = res.ell
+    how = _given(res, "grid", "cell") if res.scenario.values["grid"].get("cell") is not None else \
+        _given(res, "grid", "cells_per_wavelength")
+    raise ScenarioError(
+        f"{res.scenario.where}: the grid would have {n:.3g} cells ({nx:.3g} x {ny:.3g}, cell "
+        f"{cell * ell:.3g} m from {how}, {_given(res, 'grid', 'length')}, {_given(res, 'grid', 'height')}): "
+        f"expected at most {MAX_CELLS:.0e} cells; a plain number is read in metres (SI) unless "
+        "units.mode = \"natural\" -- give lengths with units, e.g. \"20 nm\"")
+
+
+def _check_recorders(res: Resolved, rec: dict, kind: str, pol: str, half_height: float, length: float,
+                     cell: float) -> None:
+    """Recorder lines and spans inside the interior of the grid (the absorbing layers excluded)."""
+    where, ell = res.scenario.where, res.ell
+    if pol == "1d":
+        return
+    inside = f"the interior |y| <= {half_height * ell:.4g} m (grid.height; the absorbing layers lie beyond)"
+    if rec.get("line_height") is not None and abs(res.L(rec["line_height"])) > half_height:
+        raise ScenarioError(f"{where}: {_given(res, 'record', 'line_height')} lies outside {inside}")
+    for i, y in enumerate(rec.get("flux_heights") or ()):
+        y_si = Q.parse(y, "length", f"record.flux_heights[{i}]", where, res.scenario.natural)
+        if abs(res.L(y_si)) > half_height:
+            raise ScenarioError(f"{where}: record.flux_heights[{i}] = {y!r} lies outside {inside}")
+    if kind == "open" and rec.get("passage_start") is not None and rec.get("passage_stop") is not None:
+        for key in ("passage_start", "passage_stop"):
+            x = res.L(rec[key])
+            if not 0.0 <= x <= length:
+                raise ScenarioError(f"{where}: {_given(res, 'record', key)} lies outside the interior "
+                                    f"0 <= x <= {length * ell:.4g} m (grid.length)")
+
+
+def _check_open_path(res: Resolved, s: dict, run: dict, pol: str, speed: float, length: float,
+                     half_height: float, absorber: float, cell: float) -> None:
+    """An open domain: the source starts inside the interior and never leaves the grid."""
+    where, ell = res.scenario.where, res.ell
+    x0 = res.L(s["x0"])
+    if not 0.0 <= x0 <= length:
+        raise ScenarioError(f"{where}: {_given(res, 'source', 'x0')} lies outside the interior "
+                            f"0 <= x <= {length * ell:.4g} m (grid.length)")
+    reach = (0.5 * (s["shape_order"] + 1) * s["shape_scale"] + 1.5) * cell
+    x_end = x0 + speed * res.T(run["time"])
+    edge = length + max(absorber, 10 * cell) - reach
+    if x_end > edge:
+        raise ScenarioError(
+            f"{where}: the source leaves the grid: from {_given(res, 'source', 'x0')} at {speed:.4g} c for "
+            f"{_given(res, 'run', 'time')} it reaches x = {x_end * ell:.4g} m, beyond the grid's end at "
+            f"{edge * ell:.4g} m (interior, absorbing layer, less the source's reach): expected a path that "
+            "stays on the grid; shorten run.time or lengthen grid.length")
 
 
 def _check_1d(res: Resolved, notes: list) -> None:
@@ -571,6 +666,27 @@ def _anomalous_grid_warning(p: Plan, res: Resolved) -> None:
         return
 
 
+def _media_on_path(p: Plan) -> list:
+    """Names of the placed media (not the background) the source's path crosses: the whole cell
+    length for a co-moving cell, from x0 to where the run ends for an open domain."""
+    if p.kind == "comoving":
+        xs = np.linspace(0.0, p.length, 65)[:-1]
+    else:
+        xs = np.linspace(p.x0, p.x0 + p.speed * (p.open_time or 0.0), 65)
+    ys = np.full_like(xs, p.height)
+    hit = np.zeros(xs.shape, dtype=int) - 1
+    for k, (region, _mat) in enumerate(p.placements):
+        c = np.asarray(region.contains(xs, ys), dtype=bool)
+        c = np.full(xs.shape, bool(c.flat[0])) if c.size == 1 else c.reshape(xs.shape)
+        hit[c] = k                                      # later placements paint over earlier ones
+    names = []
+    for k in sorted(set(hit[hit >= 0].tolist())):
+        mat = p.placements[k][1]
+        if mat is not p.background and mat.name not in names:
+            names.append(mat.name)
+    return names
+
+
 def plan_warnings(p: Plan, res: Resolved) -> None:
     """Warnings a user should see before the run (resolution, numerical Cherenkov, overlap,
     absorber distance, settling time)."""
@@ -608,6 +724,12 @@ def plan_warnings(p: Plan, res: Resolved) -> None:
                           f"nearest surface {min(abs(y - p.height) for y in p.surfaces) * p.ell:.3g} m away: "
                           "the source overlaps a material (raise source.height or refine grid.cell); "
                           "no planar reference for such a point")
+    inside = _media_on_path(p)
+    if inside:
+        p.warnings.append(
+            f"the source's path at y = {p.height * p.ell:.4g} m runs inside {', '.join(map(repr, inside))}, not "
+            f"in the background {p.background.name!r}: the source moves through that medium (intended for "
+            "emission inside a medium; otherwise move source.height out of it)")
     margin = p.half_height - abs(p.height)
     if margin < max(5 * p.cell, 2 * math.pi / (p.omega0 or 1.0) / 8):
         p.warnings.append(f"the source runs {margin * p.ell:.3g} m from the absorbing layer: raise grid.height")

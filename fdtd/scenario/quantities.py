@@ -20,6 +20,7 @@ layer converts them to the solver's normalized units.
 from __future__ import annotations
 
 import math
+import re
 from dataclasses import dataclass
 
 import pint
@@ -30,6 +31,13 @@ from fdtd.errors import ParameterError
 
 KINDS = ("length", "time", "angular_frequency", "rate", "speed", "dimensionless", "charge_per_length",
          "dipole_per_length")
+
+
+#: longest string read as a quantity ("2.1 eV" needs a few characters; a longer one is a mistake)
+MAX_TEXT = 80
+#: chained or parenthesised powers, or an exponent of three digits or more: the unit parser would
+#: evaluate them as exact integers (9**9**9 does not finish)
+_RUNAWAY_POWER = re.compile(r"(\*\*|\^)\s*[-+]?\s*(\d{3,}|\(|\d+(\.\d*)?\s*(\*\*|\^))|\)\s*(\*\*|\^)")
 
 
 class ScenarioError(ParameterError):
@@ -62,52 +70,70 @@ def parse(value, kind: str, key: str = "?", where: str = "scenario", natural: Na
     if isinstance(value, bool):
         raise _err(where, key, value, f"{_article(kind)} {kind.replace('_', ' ')} (a number or a string with units)")
     if isinstance(value, (int, float)):
-        x = float(value)
+        try:
+            x = float(value)
+        except OverflowError:
+            x = math.inf
         if not math.isfinite(x):
             raise _err(where, key, value, "a finite number")
         if natural is not None:
-            return x * {"length": natural.length, "time": 1 / natural.omega_ref,
-                        "angular_frequency": natural.omega_ref, "rate": natural.omega_ref}.get(kind, 1.0)
+            x = x * {"length": natural.length, "time": 1 / natural.omega_ref,
+                     "angular_frequency": natural.omega_ref, "rate": natural.omega_ref}.get(kind, 1.0)
+            if not math.isfinite(x):
+                raise _err(where, key, value, f"a finite {kind.replace('_', ' ')} (it overflows in SI units)")
         return x          # SI, or beta for a speed
     if not isinstance(value, str):
         raise _err(where, key, value, f"{_article(kind)} {kind.replace('_', ' ')} (a number or a string with units)")
+    expected = f"{_article(kind)} {kind.replace('_', ' ')} with units, e.g. " + _EXAMPLES[kind]
+    if len(value) > MAX_TEXT or _RUNAWAY_POWER.search(value):
+        # the unit parser evaluates arithmetic: 9**9**9 would compute for ever
+        raise _err(where, key, value, expected + f" (at most {MAX_TEXT} characters, powers of at most two "
+                   "digits)")
     try:
         q = _UREG.Quantity(value)
+        mag = float(q.magnitude)
     except Exception:
-        raise _err(where, key, value, f"{_article(kind)} {kind.replace('_', ' ')} with units, e.g. "
-                   + _EXAMPLES[kind]) from None
-    mag = float(q.magnitude)
+        raise _err(where, key, value, expected) from None
     if not math.isfinite(mag):
         raise _err(where, key, value, "a finite number")
     dim = q.dimensionality
     try:
-        if kind == "length":
-            return float(q.to("m").magnitude)
-        if kind == "time":
-            return float(q.to("s").magnitude)
-        if kind == "speed":                                          # returned as beta = v/c
-            if dim == _UREG.dimensionless.dimensionality:
-                return float(q.to("dimensionless").magnitude)
-            return float(q.to("m/s").magnitude) / sc.c
-        if kind in ("angular_frequency", "rate"):
-            if dim == _UREG.eV.dimensionality:                       # energy: E / hbar
-                return float(q.to("J").magnitude) / sc.hbar
-            if dim == (1 / _UREG.m).dimensionality:                  # wavenumber: 2 pi c nu
-                return 2 * math.pi * sc.c * float(q.to("1/m").magnitude)
-            if "radian" in str(q.units):
-                return float(q.to("rad/s").magnitude)
-            if dim == (1 / _UREG.s).dimensionality:                  # Hz: omega = 2 pi f
-                return 2 * math.pi * float(q.to("Hz").magnitude) if kind == "angular_frequency" \
-                    else float(q.to("1/s").magnitude)
-            raise pint.DimensionalityError(q.units, "1/s")
-        if kind == "charge_per_length":
-            return float(q.to("C/m").magnitude)
-        if kind == "dipole_per_length":
-            return float(q.to("C").magnitude)
-        return float(q.to("dimensionless").magnitude)
+        x = _to_si(q, kind, dim)
     except pint.DimensionalityError:
         raise _err(where, key, value, f"{_article(kind)} {kind.replace('_', ' ')}, e.g. {_EXAMPLES[kind]} "
                    f"(got a quantity of dimension {dim})") from None
+    except (ArithmeticError, TypeError, ValueError):
+        raise _err(where, key, value, expected) from None
+    if not math.isfinite(x):
+        raise _err(where, key, value, f"a finite {kind.replace('_', ' ')} (it overflows in SI units)")
+    return x
+
+
+def _to_si(q, kind: str, dim) -> float:
+    if kind == "length":
+        return float(q.to("m").magnitude)
+    if kind == "time":
+        return float(q.to("s").magnitude)
+    if kind == "speed":                                          # returned as beta = v/c
+        if dim == _UREG.dimensionless.dimensionality:
+            return float(q.to("dimensionless").magnitude)
+        return float(q.to("m/s").magnitude) / sc.c
+    if kind in ("angular_frequency", "rate"):
+        if dim == _UREG.eV.dimensionality:                       # energy: E / hbar
+            return float(q.to("J").magnitude) / sc.hbar
+        if dim == (1 / _UREG.m).dimensionality:                  # wavenumber: 2 pi c nu
+            return 2 * math.pi * sc.c * float(q.to("1/m").magnitude)
+        if "radian" in str(q.units):
+            return float(q.to("rad/s").magnitude)
+        if dim == (1 / _UREG.s).dimensionality:                  # Hz: omega = 2 pi f
+            return 2 * math.pi * float(q.to("Hz").magnitude) if kind == "angular_frequency" \
+                else float(q.to("1/s").magnitude)
+        raise pint.DimensionalityError(q.units, "1/s")
+    if kind == "charge_per_length":
+        return float(q.to("C/m").magnitude)
+    if kind == "dipole_per_length":
+        return float(q.to("C").magnitude)
+    return float(q.to("dimensionless").magnitude)
 
 
 _EXAMPLES = {

@@ -71,6 +71,20 @@ MATERIAL_KEYS = {
                    doc="polar: nonlocal speed of the phonon pole (spatial dispersion)"),
 }
 
+#: the keys (besides ``kind``) that each material kind reads; any other key is refused
+MATERIAL_KIND_KEYS = {
+    "constant": ("eps",),
+    "poles": ("eps_inf", "poles"),
+    "polar": ("eps_inf", "omega_to", "omega_lo", "gamma", "beta_nl"),
+    "sellmeier": ("B", "C"),
+    "table": ("file", "n_lorentz", "n_drude"),
+}
+#: the keys (besides ``kind``) that each pole kind reads (beta_nl of a Drude pole has its own message)
+POLE_KIND_KEYS = {
+    "lorentz": ("delta_eps", "omega", "gamma", "beta_nl"),
+    "drude": ("omega_p", "gamma", "beta_nl"),
+}
+
 SCHEMA = {
     "meta": {
         "title": Key("str", False, default=""),
@@ -102,7 +116,7 @@ SCHEMA = {
         "cells_per_wavelength": Key("number", False, lo=4.0, doc="or: cells per shortest wavelength"),
         "length": Key("length", True, lo=0.0, lo_open=True, doc="cell length along x (co-moving) or domain length"),
         "height": Key("length", False, lo=0.0, lo_open=True, doc="interior half height (co-moving) / height"),
-        "absorber": Key("length", False,
+        "absorber": Key("length", False, lo=0.0, lo_open=True,
                         doc="absorbing-layer thickness (default: half the source's rest-frame wavelength, "
                             ">= 10 cells)"),
         "courant": Key("number", False, default=0.95, lo=0.0, hi=1.0, lo_open=True,
@@ -143,9 +157,9 @@ SCHEMA = {
         "settle_tolerance": Key("number", False, default=5e-3, lo=0.0, lo_open=True,
                                 doc="co-moving: largest remaining drift of the reported figures between "
                                     "recording windows, relative to each figure"),
-        "max_time": Key("time", False, doc="co-moving: give up settling after this time"),
-        "time": Key("time", False, doc="open: simulated time"),
         "checkpoint_every": Key("int", False, default=0, lo=0, doc="steps between checkpoints (0: none)"),
+        "max_time": Key("time", False, lo=0.0, lo_open=True, doc="co-moving: give up settling after this time"),
+        "time": Key("time", False, lo=0.0, lo_open=True, doc="open: simulated time"),
         "isolated_emitter": Key("bool", False, default=False,
                                 doc="co-moving: also compute the isolated emitter (not the cell's row of "
                                     "emitters) from phased rows integrated over k0 (several more runs)"),
@@ -192,6 +206,21 @@ REGION_KEYS = {
 }
 
 
+#: the keys (besides ``shape`` and ``material``) that each region shape needs; no others are read
+REGION_SHAPE_KEYS = {
+    "half-space": ("below", "above"),        # exactly one of the two
+    "slab": ("lo", "hi"),
+    "rectangle": ("x0", "x1", "y0", "y1"),
+    "polygon": ("vertices",),
+    "grating": ("period", "duty", "top", "depth"),
+}
+
+#: deepest nesting of tables and lists a scenario may have (the schema itself needs four:
+#: materials.NAME.poles[i].key)
+MAX_DEPTH = 16
+#: largest scenario file read (a scenario is a page of text)
+MAX_FILE_BYTES = 1 << 20
+
 _SI_UNIT = {"length": "m", "time": "s", "angular_frequency": "rad/s", "rate": "1/s", "speed": "c",
             "charge_per_length": "C/m", "dipole_per_length": "C"}
 
@@ -210,6 +239,30 @@ def _allowed_range(spec: Key) -> str:
 
 
 # ----------------------------------------------------------------------------- loading
+def _finite(x) -> bool:
+    try:
+        return math.isfinite(x)
+    except OverflowError:          # an integer beyond the float range
+        return False
+
+
+def _check_depth(data, where: str) -> None:
+    """Refuse tables and lists nested deeper than MAX_DEPTH (and cycles, which never end)."""
+    stack = [(data, 1)]
+    while stack:
+        node, depth = stack.pop()
+        if isinstance(node, dict):
+            children = node.values()
+        elif isinstance(node, (list, tuple)):
+            children = node
+        else:
+            continue
+        if depth > MAX_DEPTH:
+            raise ScenarioError(f"{where}: tables and lists nested more than {MAX_DEPTH} levels deep: "
+                                f"expected at most {MAX_DEPTH} (the schema needs four)")
+        stack.extend((c, depth + 1) for c in children)
+
+
 class Scenario:
     """A scenario file (or dict) with its validated, SI-converted values.
 
@@ -219,33 +272,75 @@ class Scenario:
 
     def __init__(self, data: dict, where: str = "scenario", text: str | None = None):
         self.where = where
-        self.raw = copy.deepcopy(data)
         self.text = text
         self.errors: list[str] = []
         self.values: dict = {}
+        _check_depth(data, where)
+        self.raw = copy.deepcopy(data)
         self._validate()
 
     @classmethod
     def load(cls, path) -> Scenario:
         path = Path(path)
         try:
-            text = path.read_text()
+            size = path.stat().st_size
+            if path.is_dir():
+                raise ScenarioError(f"{path}: is a folder: expected a scenario file (TOML)")
+            if size > MAX_FILE_BYTES:
+                raise ScenarioError(f"{path}: {size} bytes: expected a scenario file (TOML) of at most "
+                                    f"{MAX_FILE_BYTES} bytes")
+            raw = path.read_bytes()
         except OSError as exc:
             raise ScenarioError(f"{path}: cannot read the scenario file ({exc.strerror})") from None
+        if b"\0" in raw:
+            raise ScenarioError(f"{path}: a binary file (it contains NUL bytes): expected a scenario file "
+                                "(TOML text)")
+        try:
+            text = raw.decode("utf-8")
+        except UnicodeDecodeError as exc:
+            line = raw[: exc.start].count(b"\n") + 1
+            raise ScenarioError(f"{path}: not UTF-8 text (byte 0x{raw[exc.start]:02x} on line {line}): "
+                                "expected a scenario file (TOML) in UTF-8") from None
         try:
             data = tomllib.loads(text)
         except tomllib.TOMLDecodeError as exc:
             raise ScenarioError(f"{path}: not valid TOML: {exc}") from None
+        except RecursionError:
+            raise ScenarioError(f"{path}: nested too deeply to read: expected tables and lists nested at "
+                                f"most {MAX_DEPTH} levels") from None
         return cls(data, where=str(path), text=text)
 
     def set(self, key_path: str, value) -> Scenario:
-        """A copy with ``key_path`` (e.g. "source.speed") set to ``value``."""
+        """A copy with ``key_path`` (e.g. "source.speed", or "materials.m.poles.0.omega" with a
+        list index) set to ``value``."""
+        if not isinstance(key_path, str) or not key_path.strip():
+            raise ScenarioError(f"{self.where}: key path {key_path!r}: expected a dotted key such as "
+                                '"source.speed"')
+        parts = [p.strip() for p in key_path.strip().split(".")]
+        if any(not p for p in parts):
+            raise ScenarioError(f"{self.where}: key path {key_path!r} has an empty part: expected a dotted "
+                                'key such as "source.speed"')
         data = copy.deepcopy(self.raw)
-        parts = key_path.split(".")
         node = data
-        for p in parts[:-1]:
-            node = node.setdefault(p, {})
-        node[parts[-1]] = value
+        for depth, p in enumerate(parts):
+            last = depth == len(parts) - 1
+            if isinstance(node, list):
+                if not (p.isdigit() and int(p) < len(node)):
+                    raise ScenarioError(
+                        f"{self.where}: cannot set {key_path!r}: {'.'.join(parts[:depth]) or 'the top level'} "
+                        f"is a list of {len(node)} entries and {p!r} is not an index of it: expected "
+                        + (f"0 to {len(node) - 1}" if node else "no index (the list is empty)"))
+                p = int(p)
+            elif not isinstance(node, dict):
+                raise ScenarioError(
+                    f"{self.where}: cannot set {key_path!r}: {'.'.join(parts[:depth])} = {node!r} is a "
+                    "value, not a table or a list, so it has no keys inside")
+            if last:
+                node[p] = value
+            else:
+                if isinstance(node, dict) and p not in node:
+                    node[p] = {}
+                node = node[p]
         return Scenario(data, self.where, None)
 
     # -- validation -------------------------------------------------------
@@ -253,8 +348,8 @@ class Scenario:
         self.errors.append(f"{self.where}: {key} = {value!r}: expected {expected}")
 
     def _unknown(self, key: str, allowed) -> None:
-        leaf = key.split(".")[-1]
-        near = difflib.get_close_matches(leaf, list(allowed), n=1)
+        leaf = str(key).split(".")[-1]
+        near = difflib.get_close_matches(leaf, [str(a) for a in allowed], n=1)
         hint = f" (did you mean {near[0]!r}?)" if near else f" (allowed: {', '.join(sorted(allowed))})"
         self.errors.append(f"{self.where}: unknown key {key!r}{hint}")
 
@@ -270,7 +365,8 @@ class Scenario:
             path = f"{prefix}.{k}"
             if k not in table:
                 if spec.required:
-                    self.errors.append(f"{self.where}: {path} is missing: expected {spec.doc or spec.kind}")
+                    what = f"one of {list(spec.choices)}" if spec.choices else (spec.doc or spec.kind)
+                    self.errors.append(f"{self.where}: {path} is missing: expected {what}")
                 out[k] = spec.default
                 continue
             out[k] = self._convert(path, table[k], spec, natural)
@@ -307,7 +403,7 @@ class Scenario:
                     return spec.default
                 x = value
             elif kind == "number":
-                if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value):
+                if isinstance(value, bool) or not isinstance(value, (int, float)) or not _finite(value):
                     self._fail(path, value, "a finite number")
                     return spec.default
                 x = float(value)
@@ -326,7 +422,7 @@ class Scenario:
     def _validate(self) -> None:
         d = self.raw
         if not isinstance(d, dict):
-            raise ScenarioError(f"{self.where}: expected a TOML table at the top level")
+            raise ScenarioError(f"{self.where}: {d!r}: expected a TOML table at the top level")
         for sec in d:
             if sec not in SECTIONS:
                 self._unknown(sec, SECTIONS)
@@ -342,36 +438,120 @@ class Scenario:
         v = {"units": units}
         for sec in ("meta", "geometry", "grid", "source", "run", "record"):
             v[sec] = self._check_table(sec, d.get(sec, {}), SCHEMA[sec], natural)
-        # materials
-        mats = {}
-        for name, tab in (d.get("materials") or {}).items():
-            m = self._check_table(f"materials.{name}", tab, MATERIAL_KEYS, natural)
-            poles = []
-            for i, pt in enumerate(m.get("poles") or ()):
-                poles.append(self._check_table(f"materials.{name}.poles[{i}]", pt, POLE_KEYS, natural))
-            m["poles"] = poles
-            if isinstance(tab, dict) and "B" in tab:
-                m["B"] = self._numbers(f"materials.{name}.B", tab["B"])
-            if isinstance(tab, dict) and "C" in tab:
-                m["C"] = self._numbers(f"materials.{name}.C", tab["C"])
-            mats[name] = m
-        v["materials"] = mats
+        v["materials"] = self._check_materials(d.get("materials", {}), natural)
         regions = []
-        for i, r in enumerate(d.get("regions") or []):
-            regions.append(self._check_table(f"regions[{i}]", r, REGION_KEYS, natural))
+        raw_regions = d.get("regions", [])
+        if not isinstance(raw_regions, list):
+            self._fail("regions", raw_regions, "a list of region tables ([[regions]] sections)")
+            raw_regions = []
+        for i, r in enumerate(raw_regions):
+            regions.append(self._check_region(i, r, natural))
         v["regions"] = regions
         if "scan" in d:
             v["scan"] = self._check_table("scan", d["scan"], SCHEMA["scan"], natural)
         self.values = v
         if not self.errors:
             self._cross_checks()
+        if not self.errors and "scan" in v:
+            self._check_scan_values()
         if self.errors:
             raise ScenarioError("\n".join(self.errors))
 
-    def _numbers(self, path, value):
-        if not isinstance(value, list) or not all(isinstance(x, (int, float)) and not isinstance(x, bool)
-                                                  for x in value):
-            self._fail(path, value, "a list of numbers")
+    def _not_applicable(self, prefix: str, table: dict, what: str, allowed) -> None:
+        for k in table:
+            if k not in allowed:
+                self.errors.append(f"{self.where}: {prefix}.{k} does not apply to {what}: expected only "
+                                   f"{', '.join(allowed)}")
+
+    def _check_materials(self, raw, natural) -> dict:
+        mats = {}
+        if not isinstance(raw, dict):
+            self._fail("materials", raw, "a table of named materials ([materials.NAME] sections)")
+            return mats
+        for name, tab in raw.items():
+            p = f"materials.{name}"
+            m = self._check_table(p, tab, MATERIAL_KEYS, natural)
+            if not isinstance(tab, dict):
+                continue
+            kind = tab.get("kind")
+            if kind in MATERIAL_KIND_KEYS:
+                self._not_applicable(p, tab, f"a material of kind {kind!r}", ("kind",) + MATERIAL_KIND_KEYS[kind])
+            poles = []
+            for i, pt in enumerate(m.get("poles") or ()):
+                pp = f"{p}.poles[{i}]"
+                poles.append(self._check_table(pp, pt, POLE_KEYS, natural))
+                if isinstance(pt, dict) and pt.get("kind") in POLE_KIND_KEYS:
+                    self._not_applicable(pp, pt, f"a pole of kind {pt['kind']!r}",
+                                         ("kind",) + POLE_KIND_KEYS[pt["kind"]])
+            m["poles"] = poles
+            if "B" in tab:
+                m["B"] = self._numbers(f"{p}.B", tab["B"], lo=0.0, what="Sellmeier strengths >= 0")
+            if "C" in tab:
+                m["C"] = self._numbers(f"{p}.C", tab["C"], lo=0.0, lo_open=True,
+                                       what="Sellmeier resonances > 0 (um^2)")
+            mats[name] = m
+        return mats
+
+    def _check_region(self, i: int, r, natural) -> dict:
+        p = f"regions[{i}]"
+        out = self._check_table(p, r, REGION_KEYS, natural)
+        if not isinstance(r, dict) or r.get("shape") not in REGION_SHAPE_KEYS:
+            return out
+        shape = r["shape"]
+        need = REGION_SHAPE_KEYS[shape]
+        self._not_applicable(p, r, f"a region of shape {shape!r}", ("shape", "material") + need)
+        if shape == "half-space":
+            if ("below" in r) == ("above" in r):
+                self.errors.append(f"{self.where}: {p} (half-space) needs exactly one of below or above "
+                                   f"(got {'both' if 'below' in r else 'neither'})")
+            return out
+        missing = [k for k in need if k not in r]
+        if missing:
+            self.errors.append(f"{self.where}: {p} ({shape}) is missing {', '.join(missing)}: a {shape} "
+                               f"needs {', '.join(need)}")
+            return out
+        for lo, hi in (("lo", "hi"), ("x0", "x1"), ("y0", "y1")):
+            if lo in need and out.get(lo) is not None and out.get(hi) is not None and not out[lo] < out[hi]:
+                self._fail(f"{p}.{hi}", r[hi], f"a value above {p}.{lo} = {r[lo]!r} (an empty region)")
+        if shape == "polygon":
+            out["vertices_si"] = self._vertices(f"{p}.vertices", r["vertices"], natural)
+        return out
+
+    def _vertices(self, path: str, value, natural) -> list:
+        expected = "a list of at least three [x, y] pairs of lengths, enclosing an area"
+        if not isinstance(value, list) or len(value) < 3 or not all(isinstance(v, list) and len(v) == 2
+                                                                    for v in value):
+            self._fail(path, value, expected)
+            return []
+        pts = []
+        for j, pair in enumerate(value):
+            try:
+                pts.append(tuple(Q.parse(c, "length", f"{path}[{j}]", self.where, natural) for c in pair))
+            except ScenarioError as exc:
+                self.errors.append(str(exc))
+                return []
+        area = 0.5 * abs(sum(x0 * y1 - x1 * y0 for (x0, y0), (x1, y1) in zip(pts, pts[1:] + pts[:1])))
+        if not area > 0:
+            self._fail(path, value, expected + " (these vertices enclose none)")
+        return pts
+
+    def _check_scan_values(self) -> None:
+        values = self.values["scan"]["values"]
+        if not values:
+            self._fail("scan.values", values, "a non-empty list of values for scan.key")
+            return
+        try:
+            self.scan_points()
+        except ScenarioError as exc:
+            self.errors.append(str(exc))
+
+    def _numbers(self, path, value, lo=None, lo_open=False, what="numbers"):
+        ok = isinstance(value, list) and all(isinstance(x, (int, float)) and not isinstance(x, bool)
+                                             and _finite(x) for x in value)
+        if ok and lo is not None:
+            ok = all(x > lo if lo_open else x >= lo for x in value)
+        if not ok:
+            self._fail(path, value, f"a list of finite {what}")
             return []
         return [float(x) for x in value]
 
@@ -458,11 +638,26 @@ class Scenario:
                 Q.parse(y, "length", f"record.flux_heights[{i}]", self.where, self.natural)
             except ScenarioError as exc:
                 self.errors.append(str(exc))
+        if rec.get("line_height") is not None and rec.get("line_component") is None:
+            self._fail("record.line_height", self.raw["record"]["line_height"],
+                       "record.line_component beside it (the field to record on that line)")
+        starts = [k for k in ("passage_start", "passage_stop") if rec.get(k) is not None]
+        if len(starts) == 1:
+            self.errors.append(f"{self.where}: record.{starts[0]} is given without record."
+                               f"{({'passage_start', 'passage_stop'} - set(starts)).pop()}: the passage "
+                               "analysis needs both ends of its column span")
+        elif starts and not rec["passage_start"] < rec["passage_stop"]:
+            self._fail("record.passage_stop", self.raw["record"]["passage_stop"],
+                       f"a value above record.passage_start = {self.raw['record']['passage_start']!r}")
+        if starts and v["run"]["kind"] != "open":
+            self._fail("record.passage_start", self.raw["record"].get("passage_start"),
+                       'run.kind = "open" (the passage analysis is for open domains)')
         if "scan" in v:
             key = v["scan"]["key"]
             sec, _, leaf = key.partition(".")
-            if sec not in SCHEMA or leaf not in SCHEMA.get(sec, {}):
-                self._fail("scan.key", key, "a key path such as \"source.speed\" or \"geometry.gap\"")
+            if sec not in SCHEMA or sec == "scan" or leaf not in SCHEMA.get(sec, {}):
+                self._fail("scan.key", key, "a key path such as \"source.speed\" or \"geometry.gap\" "
+                           "(a key of [units], [geometry], [grid], [source], [run] or [record])")
 
     # -- resolution ---------------------------------------------------------
     def resolve(self):
@@ -520,5 +715,21 @@ def schema_markdown() -> str:
     return "\n\n".join(parts)
 
 
-if __name__ == "__main__":   # python -m fdtd.scenario.schema: the key tables of docs/scenarios.md
-    print(schema_markdown())
+def write_docs(path) -> None:
+    """Replace the key tables of docs/scenarios.md (from its "### `meta`" heading to the next
+    "## " heading) with :func:`schema_markdown`."""
+    from pathlib import Path
+
+    lines = Path(path).read_text().splitlines()
+    a = lines.index("### `meta`")
+    b = next(k for k in range(a + 1, len(lines)) if lines[k].startswith("## "))
+    Path(path).write_text("\n".join(lines[:a] + schema_markdown().splitlines() + [""] + lines[b:]) + "\n")
+
+
+if __name__ == "__main__":   # python -m fdtd.scenario.schema [--write docs/scenarios.md]
+    import sys
+
+    if "--write" in sys.argv:
+        write_docs(sys.argv[sys.argv.index("--write") + 1])
+    else:
+        print(schema_markdown())

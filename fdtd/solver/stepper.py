@@ -383,23 +383,68 @@ class Solver:
             tot += ek.sum_of_squares(a.reshape(a.shape[0], -1) if a.ndim > 1 else a.reshape(1, -1))
         return 0.5 * tot * self.grid.cell_volume
 
+    def likely_instability_causes(self) -> list[str]:
+        """What in this solver's set-up can make a run grow: a time step above (or at) the Yee + ADE
+        limit, a medium outside the range the scheme keeps stable (gain, eps_inf <= 0), an
+        absorbing layer too thin for its grading.  Empty when none of them is present."""
+        from fdtd.space.edges import CPML
+        from fdtd.space.stability import max_stable_dt
+
+        causes = []
+        limit = self.model.max_stable_dt()
+        if self.dt > limit * (1 + 1e-12):
+            how = (f"vacuum Courant number {self.courant_number:.4g} > 1: lower the courant fraction"
+                   if self.courant_number > 1 else "the media's poles lower the limit below the vacuum one: lower "
+                   "the courant fraction, or refine the cell")
+            causes.append(f"the time step dt = {self.dt:.6g} is {self.dt / limit:.4g} times the Yee + ADE stability "
+                          f"limit {limit:.6g} ({how})")
+        elif self.dt > 0.999 * limit:
+            causes.append(f"the time step dt = {self.dt:.6g} sits at the stability limit {limit:.6g}, where "
+                          "round-off can grow (lower the courant fraction, e.g. to 0.95)")
+        for mat in self.model.materials or [self.model.background]:
+            why = []
+            if not mat.eps_inf > 0:
+                why.append(f"eps_inf = {mat.eps_inf:.4g} <= 0")
+            for pole in mat.poles:
+                a0, a1, b = pole.ade_parameters()
+                if a1 < 0 or b < 0 or a0 < 0:
+                    why.append(f"a pole with gain or negative strength (ADE a0 = {a0:.4g}, a1 = {a1:.4g}, "
+                               f"b = {b:.4g}; stable needs all >= 0)")
+            if not why and mat.poles:
+                own = max_stable_dt(self.grid.spacing, [mat])
+                if self.dt > own * (1 + 1e-12):
+                    why.append(f"its own stability limit dt = {own:.6g} is below the time step")
+            if why:
+                causes.append(f"medium {mat.name!r} lies outside the stable range: {'; '.join(why)}")
+        thin = [(f"{side} {'xyz'[axis]}", edge.cells) for axis, pair in enumerate(self.model.edges)
+                for side, edge in zip(("low", "high"), pair) if isinstance(edge, CPML) and edge.cells < 5]
+        if thin:
+            causes.append("absorbing layers too thin for their grading (" + ", ".join(f"{n} cells on the {where} side"
+                          for where, n in thin) + "; give them at least 8-10 cells)")
+        return causes
+
+    def _instability_message(self, what: str) -> str:
+        causes = self.likely_instability_causes()
+        why = ("; likely cause" + ("s: " if len(causes) > 1 else ": ") + "; ".join(causes)) if causes else \
+            ("; none of the usual causes (time step above the limit, a medium outside the stable range, "
+             "a too thin absorbing layer) is present: look for a source current that grows without bound")
+        return f"{what}: the run is unstable (dt = {self.dt:.6g}, limit {self.model.max_stable_dt():.6g}){why}"
+
     def check_health(self) -> None:
         """Raise InstabilityError on non-finite fields or energy beyond what was put in."""
         w = self.field_energy_measure()
         if not math.isfinite(w):
-            raise InstabilityError(
-                f"non-finite fields at step {self.step_count} (t = {self.time:.6g}); the run is "
-                f"unstable: dt = {self.dt:.6g} (limit {self.model.max_stable_dt():.6g})")
+            raise InstabilityError(self._instability_message(
+                f"non-finite fields at step {self.step_count} (t = {self.time:.6g})"))
         if self._energy0 is None:
             self._energy0 = w
             return
         eps_min = min(1.0, min((m.eps_inf for m in self.model.mixtures if not m.is_wall), default=1.0))
         bound = 10.0 / eps_min * (self._energy0 + self.injected_abs) + 1e-300
         if w > bound and w > 1e-200:
-            raise InstabilityError(
+            raise InstabilityError(self._instability_message(
                 f"field energy {w:.4e} at step {self.step_count} exceeds ten times what was put in "
-                f"({(self._energy0 + self.injected_abs):.4e}): the run is unstable "
-                f"(dt = {self.dt:.6g}, limit {self.model.max_stable_dt():.6g})")
+                f"({(self._energy0 + self.injected_abs):.4e})"))
 
     def advance(self, steps: int | None = None, to_time: float | None = None, progress: bool | None = None,
             ledger_every: int | None = None, callback=None, callback_every: int = 1) -> str:

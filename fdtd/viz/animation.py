@@ -15,8 +15,10 @@ from pathlib import Path
 
 import numpy as np
 
-from fdtd.viz.figures import ANOMALOUS, _length_scale, _mpl
+from fdtd import _checks
+from fdtd.errors import ParameterError
 from fdtd.io.results import Results
+from fdtd.viz.figures import ANOMALOUS, _length_scale, _mpl
 
 
 def render_frames(res: Results, component: str | None = None, max_frames: int | None = None,
@@ -25,7 +27,11 @@ def render_frames(res: Results, component: str | None = None, max_frames: int | 
     plt = _mpl()
     if not res.has("snapshots"):
         raise ValueError(f"{res.path}: no snapshots stored (set record.snapshots > 0 in the scenario)")
+    stored = [k for k in res.root["snapshots"] if k in ("Ex", "Ey", "Ez", "Hx", "Hy", "Hz")]
     comp = component or str(res.root["snapshots"].attrs["component"])
+    if comp not in stored:
+        raise ParameterError(f"component = {comp!r}: {res.path} stores snapshots of {', '.join(stored)} only: "
+                             f"expected one of them")
     data = res.array(f"snapshots/{comp}").astype(float)
     if energy:
         data = data**2
@@ -88,6 +94,9 @@ def animate(path, out=None, component: str | None = None, fps: int = 12, energy:
 
     path = Path(path)
     out = Path(out) if out else path.with_suffix(".gif")
+    if out.suffix.lower() not in (".gif", ".mp4"):
+        raise ParameterError(f"output = {str(out)!r}: expected a movie file ending in .gif or .mp4")
+    fps = _checks.positive_int("fps (frames per second)", fps, minimum=1)
     with Results(path) as res:
         frames = render_frames(res, component, energy=energy)
     h = min(f.shape[0] for f in frames)

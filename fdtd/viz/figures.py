@@ -298,9 +298,9 @@ def plot_all(path, outdir=None, formats=("png", "pdf")) -> list[str]:
     """All figures of a results file; returns the written paths."""
     path = Path(path)
     outdir = Path(outdir) if outdir else path.with_suffix("")
-    outdir.mkdir(parents=True, exist_ok=True)
     written = []
-    with Results(path) as res:
+    with Results(path) as res:          # a file that is not ours is refused before the folder is made
+        outdir.mkdir(parents=True, exist_ok=True)
         points = range(res.n_points) if "scan" in res.f else [None]
         for k in points:
             r = res if k is None else res.point(k)
