@@ -76,8 +76,11 @@ def check(scenario: Scenario) -> list[CheckReport]:
     from fdtd.experiment.procedure import Experiment
 
     reports = []
+    from fdtd.experiment.resources import disk_estimate, guard, memory_available, memory_estimate
+
     for pt, p in plan_points(scenario):
         rep = CheckReport(warnings=list(p.warnings), notes=list(p.notes) + list(p.adjustments))
+        guard(p, pt.where)                           # refuses what does not fit, before allocating
         exp = Experiment(p, progress=False)          # builds model and solver
         s = exp.solver
         ell = p.ell
@@ -120,7 +123,10 @@ def check(scenario: Scenario) -> list[CheckReport]:
                         + (f" (misses whole beats by {p.window_mismatch:.2f})" if p.window_mismatch > 1e-9 else "")
                         + f", cell length {p.length * ell * 1e9:.5g} nm") if p.kind == "comoving" else "the whole run"),
             ("steps", f"about {steps_typ:,} (at most {steps_max:,})" if steps_typ != steps_max else f"{steps_typ:,}"),
-            ("memory", f"{arrays / 2**20:.0f} MiB of field and polarization arrays"),
+            ("memory", f"{arrays / 2**20:.0f} MiB of field and polarization arrays (estimate before "
+                       f"building {memory_estimate(p) / 2**20:.0f} MiB; {memory_available() / 2**30:.3g} GiB "
+                       "available)"),
+            ("results", f"about {max(disk_estimate(p), 2**20) / 2**20:.0f} MiB (snapshots and field line)"),
             ("run time", f"about {_fmt_time(t_typ)}" + (f" (at most {_fmt_time(t_max)})" if t_max > 1.5 * t_typ
                                                          else "") + f", calibrated at {rate / 1e6:.0f} Mcell/s"),
         ]
@@ -152,11 +158,16 @@ class RunOutput:
         return v["normalized"] if normalized else v["value"]
 
 
-def run(scenario, out=None, progress: bool | None = None, checkpoint=None, resume=None) -> RunOutput:
+def run(scenario, out=None, progress: bool | None = None, checkpoint=None, resume=None, force: bool = False,
+        make_parents: bool = False) -> RunOutput:
     """Run a scenario (a Scenario or a path) through the experiment procedure and write the
-    results file; diagnostics go to the ``fdtd`` logger."""
+    results file; diagnostics go to the ``fdtd`` logger.  Refuses (ParameterError) before
+    anything runs an output or checkpoint path that cannot be written (``make_parents``
+    creates missing folders) and a run that does not fit this machine (``force`` tries
+    anyway); see :func:`fdtd.experiment.session.run_scenario`."""
     sc_ = scenario if isinstance(scenario, Scenario) else load(scenario)
-    r = run_scenario(sc_, out=out, progress=progress, checkpoint=checkpoint, resume=resume)
+    r = run_scenario(sc_, out=out, progress=progress, checkpoint=checkpoint, resume=resume, force=force,
+                     make_parents=make_parents)
     return RunOutput(r.file, r.status, r.stop_reason, r.points)
 
 

@@ -46,6 +46,9 @@ def build_parser() -> argparse.ArgumentParser:
     r.add_argument("--quiet", action="store_true", help="no progress output")
     r.add_argument("--checkpoint", help="checkpoint file (written every run.checkpoint_every steps)")
     r.add_argument("--resume", metavar="CHECKPOINT", help="continue a run from a checkpoint")
+    r.add_argument("--force", action="store_true",
+                   help="run even when the memory, disk or work estimate exceeds what this machine has")
+    r.add_argument("--parents", action="store_true", help="create missing folders of --output and --checkpoint")
     r.add_argument("--set", action="append", default=[], metavar="KEY=VALUE", help="override a value")
 
     pl = sub.add_parser("plot", help="figures (PNG and PDF) from a results file",
@@ -182,41 +185,6 @@ def _overrides(scenario, pairs):
     return scenario
 
 
-def _check_resume(path: str, scenario) -> None:
-    """Refuse ``--resume`` with a file that is not a checkpoint of this scenario before anything is
-    written (the loader checks the same later, once the results file is open)."""
-    from pathlib import Path
-
-    import h5py
-
-    from fdtd.experiment.session import plan_points
-    from fdtd.io.checkpoint import FORMAT
-    from fdtd.scenario.quantities import ScenarioError
-
-    p = Path(path)
-    what = "a checkpoint file written by gapwake run --checkpoint for this scenario"
-    if not p.exists():
-        raise ScenarioError(f"--resume {path}: no such file: expected {what}")
-    if not p.is_file():
-        raise ScenarioError(f"--resume {path}: not a file: expected {what}")
-    if not h5py.is_hdf5(p):
-        raise ScenarioError(f"--resume {path}: not a checkpoint (not an HDF5 file"
-                            f"{', it is empty' if p.stat().st_size == 0 else ''}): expected {what}")
-    try:
-        with h5py.File(p, "r") as f:
-            fmt = f.attrs.get("format")
-            text = f.attrs.get("scenario_text")
-    except OSError as exc:
-        raise ScenarioError(f"--resume {path}: cannot read it ({exc}): expected {what}") from None
-    if fmt != FORMAT:
-        raise ScenarioError(f"--resume {path}: not a gapwake checkpoint (format {fmt!r}, expected {FORMAT!r}): "
-                            f"expected {what}")
-    plans = {pl.to_json() for _pt, pl in plan_points(scenario)}
-    if text not in plans:
-        raise ScenarioError(f"--resume {path}: the checkpoint belongs to a different scenario (or other "
-                            "--set values): expected a checkpoint of this scenario as given")
-
-
 def _print_summary(out, stream=None) -> None:
     stream = stream or sys.stdout
     if out.status != "complete":
@@ -262,8 +230,6 @@ def main(argv=None) -> int:
             return 0
         if args.command == "run":
             sc = _overrides(api.load(args.file), args.set)
-            if args.resume is not None:
-                _check_resume(args.resume, sc)
             quiet = args.quiet or args.json
             progress = None if not quiet else False
             _diagnostics(quiet)
@@ -271,7 +237,7 @@ def main(argv=None) -> int:
                 if quiet:
                     warnings.simplefilter("ignore")
                 out = api.run(sc, args.output, progress=progress, checkpoint=args.checkpoint,
-                              resume=args.resume)
+                              resume=args.resume, force=args.force, make_parents=args.parents)
             if args.json:
                 print(json.dumps({"file": out.file, "status": out.status, "stop_reason": out.stop_reason,
                                   "points": out.points}, indent=1, default=float))
@@ -313,11 +279,12 @@ def main(argv=None) -> int:
     except ParameterError as exc:          # bad input (geometry, shape, time step, ...): nothing run
         print(f"gapwake: {type(exc).__name__}: {exc}", file=sys.stderr)
         return 2
+    except KeyboardInterrupt:              # outside a run's own handling (planning, plotting, the final act)
+        print(f"gapwake {args.command}: interrupted", file=sys.stderr)
+        return 130
     except GapwakeError as exc:            # the run itself failed (e.g. an instability)
         print(f"gapwake: {type(exc).__name__}: {exc}", file=sys.stderr)
-        # a checkpoint refused by its loader is a bad input, not a failed run
-        refused_checkpoint = args.command == "run" and args.resume and str(exc).startswith(str(args.resume))
-        return 2 if refused_checkpoint else 1
+        return 1
     except ValueError as exc:              # plot/animate: a results file without what was asked
         if args.command not in ("plot", "animate"):
             raise

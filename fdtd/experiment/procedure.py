@@ -240,9 +240,17 @@ class Experiment:
             self.solver.advance(steps=n, progress=False)
             bar.update(n)
 
+    @property
+    def checkpoint_every(self) -> int:
+        """Steps between checkpoints: run.checkpoint_every, or by default one recording window
+        (co-moving) or a tenth of the run (open domain)."""
+        if self.plan.checkpoint_every:
+            return self.plan.checkpoint_every
+        return self.record_steps if self.plan.kind == "comoving" else max(self.record_steps // 10, 1)
+
     def _maybe_checkpoint(self) -> None:
-        p, s, st = self.plan, self.solver, self.state
-        if self.checkpoint and p.checkpoint_every and s.step_count - st["last_checkpoint"] >= p.checkpoint_every:
+        s, st = self.solver, self.state
+        if self.checkpoint and s.step_count - st["last_checkpoint"] >= self.checkpoint_every:
             from fdtd.io.checkpoint import save_checkpoint
 
             st["last_checkpoint"] = s.step_count

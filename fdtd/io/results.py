@@ -195,7 +195,6 @@ class AtomicResults:
         self.f = None
 
     def __enter__(self) -> h5py.File:
-        self.path.parent.mkdir(parents=True, exist_ok=True)
         self.f = h5py.File(self.tmp, "w")
         a = self.f.attrs
         a["format"] = FORMAT
@@ -207,12 +206,35 @@ class AtomicResults:
         return self.f
 
     def commit(self, status: str, stop_reason: str) -> Path:
-        self.f.attrs["status"] = status
-        self.f.attrs["stop_reason"] = stop_reason
-        self.f.flush()
-        self.f.close()
-        self.f = None
-        os.replace(self.tmp, self.path)
+        """Write the final status and give the file its name.  Ctrl-C and SIGTERM are held
+        back until the rename is done, and a rename that fails leaves the temporary file
+        marked partial: a file that says "complete" always has its final name."""
+        import signal
+
+        held = {signal.SIGINT, signal.SIGTERM}
+        try:
+            old = signal.pthread_sigmask(signal.SIG_BLOCK, held)
+        except (AttributeError, ValueError, OSError):     # not POSIX, or not the main thread
+            old = None
+        try:
+            self.f.attrs["status"] = status
+            self.f.attrs["stop_reason"] = stop_reason
+            self.f.flush()
+            self.f.close()
+            self.f = None
+            try:
+                os.replace(self.tmp, self.path)
+            except OSError as exc:
+                with h5py.File(self.tmp, "a") as f:
+                    f.attrs["status"] = "partial"
+                    f.attrs["stop_reason"] = f"could not be renamed to {self.path}: {exc.strerror}"
+                from fdtd.io.paths import OutputPathError
+
+                raise OutputPathError(f"results: could not rename {self.tmp} to {self.path} ({exc.strerror}); "
+                                      f"the results are in {self.tmp}, marked partial") from None
+        finally:
+            if old is not None:
+                signal.pthread_sigmask(signal.SIG_SETMASK, old)
         return self.path
 
     def __exit__(self, exc_type, exc, tb) -> None:

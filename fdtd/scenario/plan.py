@@ -74,6 +74,8 @@ class Plan:
     reference: bool
     checkpoint_every: int
     grid_check: bool
+    grid_tol: float
+    grid_refinements: int
     isolated: bool
     isolated_tol: float
     isolated_max_runs: int
@@ -525,6 +527,7 @@ def plan(res: Resolved) -> Plan:
              line_component=rec.get("line_component"), line_height=res.L(rec.get("line_height")),
              line_every=rec["line_every"], doppler=rec["doppler"], reference=rec["reference"],
              checkpoint_every=run["checkpoint_every"], grid_check=run["grid_check"],
+             grid_tol=run["grid_tolerance"], grid_refinements=run["grid_refinements"],
              isolated=run["isolated_emitter"], isolated_tol=run["isolated_tolerance"],
              isolated_max_runs=run["isolated_max_runs"],
              threads=grid.get("threads"),

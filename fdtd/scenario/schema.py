@@ -157,9 +157,11 @@ SCHEMA = {
         "settle_tolerance": Key("number", False, default=5e-3, lo=0.0, lo_open=True,
                                 doc="co-moving: largest remaining drift of the reported figures between "
                                     "recording windows, relative to each figure"),
-        "checkpoint_every": Key("int", False, default=0, lo=0, doc="steps between checkpoints (0: none)"),
         "max_time": Key("time", False, lo=0.0, lo_open=True, doc="co-moving: give up settling after this time"),
         "time": Key("time", False, lo=0.0, lo_open=True, doc="open: simulated time"),
+        "checkpoint_every": Key("int", False, default=0, lo=0,
+                                doc="steps between checkpoints when a checkpoint file is given (--checkpoint); "
+                                    "0: one recording window (co-moving) or a tenth of the run (open)"),
         "isolated_emitter": Key("bool", False, default=False,
                                 doc="co-moving: also compute the isolated emitter (not the cell's row of "
                                     "emitters) from phased rows integrated over k0 (several more runs)"),
@@ -170,6 +172,15 @@ SCHEMA = {
         "grid_check": Key("bool", False, default=True,
                           doc="co-moving: run the point again on a grid twice as coarse and include the "
                               "difference (the discretization error) in the error estimates"),
+        "grid_tolerance": Key("number", False, default=2e-2, lo=0.0, lo_open=True,
+                              doc="co-moving, with the grid check: largest estimated discretization error "
+                                  "of the total power (and of each branch carrying at least 5 % of it), "
+                                  "relative; above it the grid is refined (run.grid_refinements) or the "
+                                  "result is marked not converged"),
+        "grid_refinements": Key("int", False, default=1, lo=0, hi=3,
+                                doc="co-moving: automatic refinements (cell halved, same source shape; each "
+                                    "costs about 8 times the run in 2D) when the grid error exceeds "
+                                    "run.grid_tolerance"),
     },
     "record": {
         "doppler": Key("bool", False, default=True),
@@ -432,7 +443,7 @@ class Scenario:
             if units.get("frequency") is None:
                 self.errors.append(f"{self.where}: units.frequency is missing: natural-unit mode needs the "
                                    "reference angular frequency (e.g. \"2.1 eV\")")
-            else:
+            elif units["frequency"] > 0:          # else its range error is listed already
                 natural = Q.Natural(units["frequency"])
         self.natural = natural
         v = {"units": units}
@@ -474,13 +485,13 @@ class Scenario:
             if not isinstance(tab, dict):
                 continue
             kind = tab.get("kind")
-            if kind in MATERIAL_KIND_KEYS:
+            if isinstance(kind, str) and kind in MATERIAL_KIND_KEYS:
                 self._not_applicable(p, tab, f"a material of kind {kind!r}", ("kind",) + MATERIAL_KIND_KEYS[kind])
             poles = []
             for i, pt in enumerate(m.get("poles") or ()):
                 pp = f"{p}.poles[{i}]"
                 poles.append(self._check_table(pp, pt, POLE_KEYS, natural))
-                if isinstance(pt, dict) and pt.get("kind") in POLE_KIND_KEYS:
+                if isinstance(pt, dict) and isinstance(pt.get("kind"), str) and pt["kind"] in POLE_KIND_KEYS:
                     self._not_applicable(pp, pt, f"a pole of kind {pt['kind']!r}",
                                          ("kind",) + POLE_KIND_KEYS[pt["kind"]])
             m["poles"] = poles
@@ -495,7 +506,7 @@ class Scenario:
     def _check_region(self, i: int, r, natural) -> dict:
         p = f"regions[{i}]"
         out = self._check_table(p, r, REGION_KEYS, natural)
-        if not isinstance(r, dict) or r.get("shape") not in REGION_SHAPE_KEYS:
+        if not isinstance(r, dict) or not isinstance(r.get("shape"), str) or r["shape"] not in REGION_SHAPE_KEYS:
             return out
         shape = r["shape"]
         need = REGION_SHAPE_KEYS[shape]
