@@ -477,6 +477,9 @@ def plan(res: Resolved) -> Plan:
     # next to a light-line crossing (measured: at lambda0/4 a harmonic at |k|/omega = 0.994
     # lost 1e-3 of its power to the reflection, at lambda0/2 nothing above 1e-6)
     absorber = res.L(grid["absorber"]) if grid.get("absorber") is not None else max(lam0 / 2, 10 * cell)
+    if pol != "1d":      # sizes as floats first: an absurd height or absorber must not overflow int()
+        rows = 2 * half_height / cell + 2 * max(absorber / cell, 10)
+        _check_cells(res, nx + (2 * max(absorber / cell, 10) if run["kind"] == "open" else 0), rows, cell)
     if pol == "1d":
         ny, half_height, absorber, height = 1, cell, 0.0, 0.0
     elif run["kind"] == "comoving":
@@ -551,6 +554,10 @@ def _given(res: Resolved, section: str, key: str) -> str:
 
 def _check_cells(res: Resolved, nx: float, ny: float, cell: float) -> None:
     """Refuse a grid of more than MAX_CELLS cells (before anything sizes arrays or loops over them)."""
+    try:
+        nx, ny = float(nx), float(ny)
+    except OverflowError:
+        nx, ny = math.inf, math.inf
     n = nx * ny
     if n <= MAX_CELLS:
         return
@@ -665,7 +672,10 @@ def _anomalous_grid_warning(p: Plan, res: Resolved) -> None:
                     f"k <= pi/dx, above {p.speed:.3g} c with k dx <= pi/6): the anomalous branch of this "
                     "run will be a property of the grid; refine grid.cell or give the medium a physical "
                     "cutoff (beta_nl)")
-    except GapwakeError:      # a material the calculator cannot treat: no warning, no failure
+    except (GapwakeError, ArithmeticError, RuntimeError, ValueError) as exc:
+        # a material the calculator cannot treat (e.g. a resonance far below the source's
+        # frequency, where its root search does not converge): no warning, no failure
+        p.notes.append(f"no check of the grid's cutoff against the anomalous-Doppler threshold: {exc}")
         return
 
 
@@ -707,8 +717,8 @@ def plan_warnings(p: Plan, res: Resolved) -> None:
         for w in freqs:
             with np.errstate(all="ignore"):
                 n = abs(np.real(np.sqrt(complex(m.permittivity(w)))))
+                cpw = 2 * math.pi / (w * n) / p.cell if w * n > 0 else math.inf
             if n > 0:
-                cpw = 2 * math.pi / (w * n) / p.cell
                 if cpw < 10:
                     p.warnings.append(f"only {cpw:.1f} cells per wavelength in {name!r} at omega = "
                                       f"{w * to_rad_s:.4g} rad/s: refine grid.cell (>= 10 advised)")

@@ -13,8 +13,14 @@ from pathlib import Path
 
 import scipy.constants as sc
 
+from fdtd.errors import ParameterError
 from fdtd.media.materials import VACUUM, DrudePole, LorentzPole, Material, NonlocalLorentzPole
+from fdtd.scenario.quantities import ScenarioError
 from fdtd.scenario.schema import Scenario
+
+#: reference lengths accepted (metres): from nuclear to kilometre scales; beyond them the
+#: normalized numbers of ordinary inputs under- or overflow
+LENGTH_RANGE = (1e-15, 1e3)
 
 
 @dataclass
@@ -38,12 +44,32 @@ class Resolved:
             self.ell = sc.c / s["frequency"]
         else:
             self.ell = sc.c / s["max_frequency"] if s.get("max_frequency") else 1e-6
+        if not LENGTH_RANGE[0] <= self.ell <= LENGTH_RANGE[1]:
+            raise ScenarioError(
+                f"{self.scenario.where}: the reference length is {self.ell:.3g} m (from {self._ell_origin()}): "
+                f"expected {LENGTH_RANGE[0]:g} m to {LENGTH_RANGE[1]:g} m (normalized values beyond that range "
+                "lose their precision)")
         from fdtd.units import UnitSystem
 
         self.units = UnitSystem(self.ell, u["field"], 1 if v["grid"]["polarization"] == "1d" else 2)
         self.materials = {"vacuum": VACUUM}
         for name, m in v["materials"].items():
-            self.materials[name] = self._material(name, m)
+            try:
+                self.materials[name] = self._material(name, m)
+            except (ArithmeticError, ValueError) as exc:
+                if isinstance(exc, ParameterError):
+                    raise ScenarioError(f"{self.scenario.where}: materials.{name}: {exc}") from None
+                raise ScenarioError(f"{self.scenario.where}: materials.{name}: its values give no usable "
+                                    f"permittivity in normalized units ({exc}): expected frequencies and "
+                                    "strengths of ordinary size against the reference length") from None
+
+    def _ell_origin(self) -> str:
+        v = self.scenario.values
+        if self.scenario.natural is not None:
+            return "units.frequency"
+        if v["units"].get("length") is not None:
+            return "units.length"
+        return "source.frequency" if v["source"]["kind"] == "dipole" else "source.max_frequency"
 
     # unit helpers ------------------------------------------------------------
     def L(self, x_si: float | None) -> float | None:

@@ -43,9 +43,13 @@ class Key:
     doc: str = ""
 
 
+#: largest permittivity or oscillator strength taken (a grid resolving sqrt(1e6) = 1000 times the
+#: vacuum wavenumber is beyond any run; larger values are typing mistakes)
+EPS_MAX = 1e6
+
 POLE_KEYS = {
     "kind": Key("choice", True, choices=("lorentz", "drude"), doc="pole model"),
-    "delta_eps": Key("dimensionless", False, lo=0.0, doc="Lorentz oscillator strength"),
+    "delta_eps": Key("dimensionless", False, lo=0.0, hi=EPS_MAX, doc="Lorentz oscillator strength"),
     "omega": Key("angular_frequency", False, lo=0.0, lo_open=True, doc="Lorentz resonance"),
     "omega_p": Key("angular_frequency", False, lo=0.0, lo_open=True, doc="Drude plasma frequency"),
     "gamma": Key("rate", False, default=0.0, lo=0.0, doc="damping rate (loss into the bath)"),
@@ -56,8 +60,9 @@ POLE_KEYS = {
 MATERIAL_KEYS = {
     "kind": Key("choice", True, choices=("constant", "poles", "polar", "sellmeier", "table"),
                 doc="how the permittivity is given"),
-    "eps": Key("dimensionless", False, lo=0.0, lo_open=True, doc="constant permittivity"),
-    "eps_inf": Key("dimensionless", False, default=1.0, lo=0.0, lo_open=True, doc="high-frequency permittivity"),
+    "eps": Key("dimensionless", False, lo=0.0, hi=EPS_MAX, lo_open=True, doc="constant permittivity"),
+    "eps_inf": Key("dimensionless", False, default=1.0, lo=0.0, hi=EPS_MAX, lo_open=True,
+                   doc="high-frequency permittivity"),
     "poles": Key("list", False, default=(), doc="list of pole tables"),
     "omega_to": Key("angular_frequency", False, lo=0.0, lo_open=True, doc="transverse optical phonon"),
     "omega_lo": Key("angular_frequency", False, lo=0.0, lo_open=True, doc="longitudinal optical phonon"),
@@ -496,7 +501,8 @@ class Scenario:
                                          ("kind",) + POLE_KIND_KEYS[pt["kind"]])
             m["poles"] = poles
             if "B" in tab:
-                m["B"] = self._numbers(f"{p}.B", tab["B"], lo=0.0, what="Sellmeier strengths >= 0")
+                m["B"] = self._numbers(f"{p}.B", tab["B"], lo=0.0, hi=EPS_MAX,
+                                       what=f"Sellmeier strengths in 0 <= value <= {EPS_MAX:g}")
             if "C" in tab:
                 m["C"] = self._numbers(f"{p}.C", tab["C"], lo=0.0, lo_open=True,
                                        what="Sellmeier resonances > 0 (um^2)")
@@ -556,11 +562,13 @@ class Scenario:
         except ScenarioError as exc:
             self.errors.append(str(exc))
 
-    def _numbers(self, path, value, lo=None, lo_open=False, what="numbers"):
+    def _numbers(self, path, value, lo=None, lo_open=False, hi=None, what="numbers"):
         ok = isinstance(value, list) and all(isinstance(x, (int, float)) and not isinstance(x, bool)
                                              and _finite(x) for x in value)
         if ok and lo is not None:
             ok = all(x > lo if lo_open else x >= lo for x in value)
+        if ok and hi is not None:
+            ok = all(x <= hi for x in value)
         if not ok:
             self._fail(path, value, f"a list of finite {what}")
             return []
