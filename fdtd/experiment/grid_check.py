@@ -113,35 +113,53 @@ def refined_plan(p: Plan) -> Plan:
     return r
 
 
-def compare_grids(p: Plan, fine_spectrum, coarse_nx: int, coarse_spectrum) -> dict:
+def compare_grids(p: Plan, fine_spectrum, coarse_nx: int, coarse_spectrum, floor: float = 0.0,
+                  previous: dict | None = None) -> dict:
     """Estimated discretization errors of the fine run from a run on a grid FACTOR times
     coarser (``coarse_nx`` cells along x): {"errors", "coarse", "relative"}; "relative" is
     the largest error of the total and of each branch carrying at least
-    :data:`BRANCH_SHARE` of it, relative to that figure."""
+    :data:`BRANCH_SHARE` of it, relative to that figure or to ``floor`` (the power that counts
+    as zero, e.g. below a Cherenkov threshold), whichever is larger.
+
+    ``previous``: the check of the grid before (three grids in all).  Where the difference
+    did not shrink at least like first order between them (a resonance the grid moves
+    across a harmonic, a surface mode whose interface the staggered grid places to O(dx)),
+    the second-order extrapolation is not trusted: that figure's error is the first-order
+    one, three times larger, and the result says so ("order" below 2)."""
     m_max = coarse_nx // M_MAX_FRACTION_2D if (p.polarization != "1d" and p.source_kind == "dipole") \
         else coarse_nx // 2
     k_max = 2 * np.pi * m_max / p.length
     c = _restricted(coarse_spectrum, k_max)
     diff = _pointwise_errors(fine_spectrum, coarse_spectrum, p.length, k_max)
     errors = {k: SAFETY * diff[k] / (FACTOR**2 - 1) for k in FIGURES}
-    return {"errors": errors, "coarse": c, "relative": relative_grid_error(p, fine_spectrum, errors)}
+    order = 2
+    if previous and previous.get("differences"):
+        for k in FIGURES:
+            if diff[k] > previous["differences"][k] / FACTOR:      # slower than first order
+                errors[k] = SAFETY * diff[k] / (FACTOR - 1)
+                order = 1
+    return {"errors": errors, "coarse": c, "differences": diff, "order": order,
+            "relative": relative_grid_error(p, fine_spectrum, errors, floor)}
 
 
-def relative_grid_error(p: Plan, spec, errors: dict) -> float:
-    """Largest relative grid error of the total and of the branches that matter."""
+def relative_grid_error(p: Plan, spec, errors: dict, floor: float = 0.0) -> float:
+    """Largest relative grid error of the total and of the branches that matter (see
+    :func:`compare_grids`)."""
+    if not errors:
+        return float("nan")
     total = abs(float(spec.total))
-    if not errors or total == 0:
-        return float("nan") if not errors else 0.0
-    rel = errors["total"] / total
+    if max(total, floor) == 0:
+        return 0.0
+    rel = errors["total"] / max(total, floor)
     if p.source_kind == "dipole":
         for b in ("normal", "anomalous"):
             val = abs(float(getattr(spec, b)))
-            if val >= BRANCH_SHARE * total:
-                rel = max(rel, errors[b] / val)
+            if val >= BRANCH_SHARE * total and max(val, floor) > 0:
+                rel = max(rel, errors[b] / max(val, floor))
     return float(rel)
 
 
-def run_grid_check(p: Plan, fine_spectrum, progress=False) -> dict:
+def run_grid_check(p: Plan, fine_spectrum, progress=False, floor: float = 0.0) -> dict:
     """Run the companion and return {"errors": figure -> estimated grid error,
     "coarse": figure -> coarse value, "relative": largest relative error (see
     :func:`compare_grids`), "steady": bool or None, "note": str}."""
@@ -160,6 +178,6 @@ def run_grid_check(p: Plan, fine_spectrum, progress=False) -> dict:
     if coarse is None:
         return {"errors": {}, "coarse": {}, "relative": float("nan"), "steady": None,
                 "note": "the coarse run recorded nothing"}
-    out = compare_grids(p, fine_spectrum, cp.nx, coarse)
+    out = compare_grids(p, fine_spectrum, cp.nx, coarse, floor)
     out.update(steady=exp.state.get("steady"), note="")
     return out

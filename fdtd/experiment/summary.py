@@ -229,6 +229,10 @@ def _grid_figures(p, spec, grid: dict, F: _Figures) -> None:
         return
     rel = errs["total"] / abs(spec.total) if spec.total else float("nan")
     F.plain("grid_error_of_total", rel, "1", normalized=rel)
+    if grid.get("order") == 1:
+        p.notes.append("grid error estimated at first order: between the last two grids the difference shrank "
+                       "more slowly than second order (a resonance or surface mode the grid moves); refine "
+                       "grid.cell further to trust these figures")
     F.fig("coarse_grid_total_power", grid["coarse"]["total"], "power")
     if rel > GRID_WARNING:
         F.plain("warning_grid_resolution",
