@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import os
+import subprocess
 import time
 
 import matplotlib
@@ -34,10 +35,26 @@ def save(fig, name: str) -> str:
     return name
 
 
+def product_version() -> str:
+    """The commit the simulator code comes from, and whether fdtd/ had uncommitted changes
+    (``GAPWAKE_COMMIT`` overrides it, e.g. for a run from a clean export without .git)."""
+    if os.environ.get("GAPWAKE_COMMIT"):
+        return os.environ["GAPWAKE_COMMIT"]
+    root = os.path.dirname(HERE)
+    try:
+        rev = subprocess.run(["git", "-C", root, "rev-parse", "--short", "HEAD"], capture_output=True,
+                             text=True, check=True).stdout.strip()
+        dirty = subprocess.run(["git", "-C", root, "status", "--porcelain", "--", "fdtd"],
+                               capture_output=True, text=True, check=True).stdout.strip()
+    except (OSError, subprocess.CalledProcessError):
+        return "unknown (not a git checkout)"
+    return f"commit {rev}" + (" with uncommitted changes in fdtd/" if dirty else "")
+
+
 class Report:
     def __init__(self, title: str, filename: str):
         self.lines = [f"# {title}", "", f"Generated {time.strftime('%Y-%m-%d %H:%M')} by "
-                      f"`validation/{filename.replace('.md', '.py')}`.", ""]
+                      f"`validation/{filename.replace('.md', '.py')}` (simulator: {product_version()}).", ""]
         self.filename = filename
         self.t0 = time.time()
 
