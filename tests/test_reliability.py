@@ -354,3 +354,20 @@ def test_memory_stays_flat_with_run_length(tmp_path):
     print(f"peak RSS 1x {rss[0] / 2**20:.0f} MiB, 10x {rss[1] / 2**20:.0f} MiB; line record at 10x "
           f"{(line_bytes or 0) / 2**20:.0f} MiB")
     assert rss[1] <= 1.2 * rss[0], rss
+
+
+def test_ctrl_c_while_the_figures_are_written_leaves_a_partial_file(tmp_path, monkeypatch, capsys):
+    """Ctrl-C after the simulation, while a point's figures are being written: the file gets
+    its name but says partial (never complete), and the command exits 130."""
+    import fdtd.experiment.session as S
+
+    def interrupted(*_a, **_k):
+        raise KeyboardInterrupt
+
+    monkeypatch.setattr(S, "write_point", interrupted)
+    sc = _write(tmp_path, TINY.replace("transits = 2", "transits = 1").replace("checkpoint_every = 60\n", ""))
+    assert main(["run", str(sc), "-o", str(tmp_path / "r.h5"), "--quiet"]) == 130
+    capsys.readouterr()
+    with h5py.File(tmp_path / "r.h5") as f:
+        assert f.attrs["status"] == "partial"
+        assert "interrupted" in f.attrs["stop_reason"]
