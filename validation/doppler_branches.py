@@ -226,13 +226,16 @@ def bulk(rep):
     r = run(with_scan(sc, "source.speed", speeds), "bulk")
     rows = []
     for k, (v, sim) in enumerate(zip(speeds, spectra(r))):
-        per = Bulk1D(med, v, w0, form_factor=lambda q: SHAPE.form_factor(q, d)).periodic(L)
+        with r.results(k) as res:          # the cell, cell size and shape the point ran with
+            plan = res.plan
+        shape, d_run, L_run = Shape(*plan["shape"]), plan["cell"], plan["length"]
+        per = Bulk1D(med, v, w0, form_factor=lambda q, s=shape, dd=d_run: s.form_factor(q, dd)).periodic(L_run)
         tr = sum(p.sum() for _k, p in per.values())
         cont = Bulk1D(med, v, w0).solve()
         rows.append((v, f"{sim.total / tr:.4f}", f"{sim.normal / per[1][1].sum():.4f}",
                      f"{sim.anomalous / per[-1][1].sum():.4f}", f"{per[-1][1].sum() / tr:.2%}",
                      f"{cont.anomalous / cont.total:.2%}", "yes" if r.value("steady", k) else "no",
-                     f"{r.value('steps', k):.0f}"))
+                     f"{r.value('steps', k):.0f}", f"{L_run:.4g}", f"{d_run:.4g}"))
     rep.section("1D bulk: a dipole sheet through a lossy Lorentz medium (gamma = 0.3)",
                 "A 1D scenario (`grid.polarization = \"1d\"`, periodic cell L = 12, dx = 0.05, the "
                 "oscillation switched on over 40 rest-frame time units, 10 transits recorded) with a "
@@ -240,7 +243,7 @@ def bulk(rep):
                 "form factor) on the same k set, and the anomalous share of the continuum reference.  "
                 f"The scan took {r.seconds:.0f} s.")
     rep.table(["beta", "total ratio", "normal ratio", "anomalous ratio", "anomalous share (cell)",
-               "anomalous share (continuum)", "steady", "steps"], rows)
+               "anomalous share (continuum)", "steady", "steps", "L", "dx"], rows)
 
 
 def reference_speed(rep):
