@@ -18,43 +18,14 @@ import h5py
 import numpy as np
 import pytest
 
+from test_scenario_files import TINY as BASE
+from test_scenario_files import edit
+
 import fdtd
 from fdtd.cli import main
 
-TINY = """\
-[units]
-length = "164.4 nm"
-
-[materials.m]
-kind = "poles"
-eps_inf = 1.0
-poles = [ { kind = "lorentz", delta_eps = 2.0, omega = "1.0 eV", gamma = "0.1 eV" } ]
-
-[geometry]
-kind = "half-space"
-material = "m"
-
-[grid]
-cell = "20 nm"
-length = "600 nm"
-height = "300 nm"
-
-[source]
-kind = "dipole"
-speed = "0.6 c"
-height = "150 nm"
-frequency = "1.2 eV"
-
-[run]
-transits = 2
-checkpoint_every = 60
-
-[record]
-flux_heights = ["250 nm"]
-snapshots = 3
-line_component = "Hz"
-line_height = "200 nm"
-"""
+#: the small half-space scenario of tests/test_scenario_files.py, with a checkpoint cadence
+TINY = edit(BASE, "transits = 2", "transits = 2\ncheckpoint_every = 60")
 
 SCAN = TINY + """
 [scan]
@@ -252,7 +223,7 @@ def test_memory_estimate_matches_the_allocated_arrays():
     bulk_1d = (TINY.replace('[grid]\n', '[grid]\npolarization = "1d"\n')
                .replace('kind = "half-space"\nmaterial = "m"', 'background = "m"')
                .replace('height = "300 nm"\n', '').replace('height = "150 nm"\n', '')
-               .replace('flux_heights = ["250 nm"]\n', '').replace('line_height = "200 nm"\n', '')
+               .replace('flux_heights = ["250 nm", "0 nm"]\n', '').replace('line_height = "200 nm"\n', '')
                .replace('line_component = "Hz"', 'line_component = "Ey"'))
     for text in (TINY, bulk_1d):
         sc = fdtd.Scenario(__import__("tomllib").loads(text), where="tiny")
@@ -285,7 +256,7 @@ def test_grids_that_do_not_fit_are_refused_by_check_and_run(tmp_path, edit, expe
 
 def test_absurd_run_lengths_and_snapshot_counts_are_refused(tmp_path, capsys):
     for old, what in ((("transits = 2", "transits = 2\nmax_time = \"1 s\""), "cell updates"),
-                      (('snapshots = 3', "snapshots = 1000000000"), "snapshots")):
+                      (('snapshots = 5', "snapshots = 1000000000"), "snapshots")):
         sc = _write(tmp_path, TINY.replace(*old))
         assert main(["run", str(sc), "-o", str(tmp_path / "r.h5"), "--quiet"]) == 2
         err = capsys.readouterr().err

@@ -17,7 +17,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from fdtd.experiment.procedure import Experiment
-from fdtd.experiment.resources import guard, memory_available, memory_estimate
+from fdtd.experiment.resources import ResourceError, guard
 from fdtd.experiment.summary import summarise
 from fdtd.io import results as R
 from fdtd.io.results import write_point
@@ -216,11 +216,10 @@ def _grid_checked(exp: Experiment, group, progress):
         if not rel > p.grid_tol:          # within tolerance (or no estimate): done
             break
         r = refined_plan(p)
-        need = memory_estimate(r)
-        if need > memory_available():
-            r.notes.append(f"no grid refinement: the refined grid needs about {need / 2**30:.3g} GiB, "
-                           f"more than the {memory_available() / 2**30:.3g} GiB available")
-            p.notes.extend(r.notes[-1:])
+        try:
+            guard(r, p.where)            # the same limits as any run: refine only what fits
+        except ResourceError as exc:
+            p.notes.append(f"no grid refinement: {exc}")
             break
         log.info("  grid error %.2g %% > run.grid_tolerance = %.2g %%: running again with cell %.4g nm",
                  100 * rel, 100 * p.grid_tol, r.cell * r.ell * 1e9)
