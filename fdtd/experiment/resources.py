@@ -16,6 +16,9 @@ import shutil
 from pathlib import Path
 
 from fdtd.errors import ParameterError
+# the planner's own cell limit, held here also against plans made without the planner (the
+# refined grid of the grid check)
+from fdtd.scenario.plan import MAX_CELLS
 
 #: bytes of one float64
 F8 = 8
@@ -24,9 +27,6 @@ MEMORY_SHARE = 0.8
 #: above this many cell updates in total a run is refused unless forced (on a 2-core
 #: machine at ~100 Mcell/s this is about a month)
 MAX_CELL_UPDATES = 3e14
-#: above this many cells a grid is refused whatever the memory (indices stay in int32 range
-#: in the kernels' per-row tables, and planning stays interactive)
-MAX_CELLS = 2**31 - 1
 
 
 class ResourceError(ParameterError):
