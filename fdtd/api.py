@@ -12,7 +12,6 @@ The command line (``gapwake``) is a thin layer over these functions.
 
 from __future__ import annotations
 
-import time
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -49,34 +48,13 @@ class CheckReport:
         return "\n".join(lines)
 
 
-_RATE_CACHE: dict = {}
-
-
-def calibrate(polarization: str, poles: int) -> float:
-    """Cell updates per second of this machine for a small grid (measured once per process)."""
-    key = (polarization, poles)
-    if key in _RATE_CACHE:
-        return _RATE_CACHE[key]
-    import fdtd as f
-
-    shape = (96,) if polarization == "1d" else (96, 96)
-    g = f.Grid(shape, (0.1,) * len(shape), polarization)
-    mat = f.Material(2.0, tuple(f.LorentzPole(1.0, 1.0 + k, 0.1) for k in range(poles)))
-    s = f.Solver(f.Model(g, background=mat, edges=f.CPML(8)), ledger=True, threads=1)
-    s.step(3)
-    t0 = time.perf_counter()
-    s.step(40)
-    rate = g.n_cells * 40 / (time.perf_counter() - t0)
-    _RATE_CACHE[key] = rate
-    return rate
-
-
 def check(scenario: Scenario) -> list[CheckReport]:
     """Resolved grid, estimates and warnings for each scan point (nothing is stepped)."""
     from fdtd.experiment.procedure import Experiment
 
     reports = []
     from fdtd.experiment.resources import disk_estimate, guard, memory_available, memory_estimate
+    from fdtd.experiment.timing import step_cost
 
     for pt, p in plan_points(scenario):
         rep = CheckReport(warnings=list(p.warnings), notes=list(p.notes) + list(p.adjustments))
@@ -88,15 +66,23 @@ def check(scenario: Scenario) -> list[CheckReport]:
         steps_typ, steps_max = exp.expected_steps(), exp.max_steps()
         arrays = sum(a.nbytes for a in s.fields.values()) + sum(P.nbytes + Po.nbytes for P, Po in
                                                                s.polarization.values())
-        rate = calibrate(p.polarization, exp.model.max_poles) * (1.6 if s.threads > 1 else 1.0)
-        # the grid check costs about an eighth (2D) or a quarter (1D) of the run; the isolated
-        # emitter about ten phased runs of complex fields (2.6 times the work per step)
-        extra = 1.0
+        cost = step_cost(exp)                       # measured on this experiment's own solver
+        ramp = exp.ramp_steps if p.kind == "comoving" else 0
+        t_one = ramp * cost.ramp + (steps_typ - ramp) * cost.window
+        t_one_max = ramp * cost.ramp + (steps_max - ramp) * cost.window
+        # the grid check's coarse companion: a quarter of the cells and half the steps in 2D
+        # (an eighth of the run), half and half in 1D; an automatic refinement: 8x (2D) or 4x
+        # (1D) the run; the isolated emitter: about ten phased runs of complex fields (2.6
+        # times the work per step)
+        extra = extra_max = 1.0
         if p.kind == "comoving" and p.grid_check:
             extra += 0.125 if p.dims == 2 else 0.25
+            companion = 0.125 if p.dims == 2 else 0.25
+            extra_max = extra + p.grid_refinements * (8.0 if p.dims == 2 else 4.0) * (1 + companion)
         if p.kind == "comoving" and p.isolated:
             extra += 2.6 * min(10, p.isolated_max_runs)
-        t_typ, t_max = extra * cells * steps_typ / rate, extra * cells * steps_max / rate
+            extra_max += 2.6 * min(10, p.isolated_max_runs)
+        t_typ, t_max = extra * t_one, extra_max * t_one_max
         if p.kind == "comoving":
             left = (p.max_time - p.switch_on) / (p.transits * p.transit)
             if left < 2:
@@ -127,8 +113,10 @@ def check(scenario: Scenario) -> list[CheckReport]:
                        f"building {memory_estimate(p) / 2**20:.0f} MiB; {memory_available() / 2**30:.3g} GiB "
                        "available)"),
             ("results", f"about {max(disk_estimate(p), 2**20) / 2**20:.0f} MiB (snapshots and field line)"),
-            ("run time", f"about {_fmt_time(t_typ)}" + (f" (at most {_fmt_time(t_max)})" if t_max > 1.5 * t_typ
-                                                         else "") + f", calibrated at {rate / 1e6:.0f} Mcell/s"),
+            ("run time", f"about {_fmt_time(t_typ)}" + (f" (at most {_fmt_time(t_max)}, with every window "
+                                                          "run.max_time allows and the automatic grid "
+                                                          "refinement)" if t_max > 1.5 * t_typ else "")
+             + f"; a step costs {cost.window * 1e6:.3g} us here, measured on this cell"),
         ]
         reports.append(rep)
     return reports

@@ -9,7 +9,7 @@ second order the fine run's error is about
 
 .. math:: e_{grid} \approx \sum_{points} |P_{fine} - P_{coarse}| / (2^2 - 1),
 
-times a safety factor.  The coarse run costs about an eighth of the fine one in 2D (a
+times a safety factor (Roache's grid convergence index).  The coarse run costs about an eighth of the fine one in 2D (a
 quarter of the cells, half the steps).  See docs/theory/doppler-work.md, "Settling and
 error estimates".
 """
@@ -29,9 +29,12 @@ log = logging.getLogger("fdtd.experiment")
 
 #: coarsening factor of the companion grid
 FACTOR = 2
-#: the error estimate is this times the Richardson difference (common practice: a safety
-#: factor between 1.25 and 3 on Richardson estimates of asymptotically second-order schemes)
-SAFETY = 1.5
+#: the error estimate is this times the Richardson difference of two grids: the safety factor
+#: of the grid convergence index for a two-grid study (P. J. Roache, "Perspective: a method for
+#: uniform reporting of grid refinement studies", J. Fluids Eng. 116, 405 (1994); from memory)
+SAFETY_TWO_GRIDS = 3.0
+#: ... and with three grids, where the order is observed rather than assumed (same source)
+SAFETY_THREE_GRIDS = 1.25
 #: figures compared between the grids
 FIGURES = ("total", "normal", "anomalous", "drag_force", "internal_power")
 #: a Doppler branch counts in the grid tolerance when it carries at least this share of the total
@@ -121,23 +124,34 @@ def compare_grids(p: Plan, fine_spectrum, coarse_nx: int, coarse_spectrum, floor
     :data:`BRANCH_SHARE` of it, relative to that figure or to ``floor`` (the power that counts
     as zero, e.g. below a Cherenkov threshold), whichever is larger.
 
-    ``previous``: the check of the grid before (three grids in all).  Where the difference
-    did not shrink at least like first order between them (a resonance the grid moves
-    across a harmonic, a surface mode whose interface the staggered grid places to O(dx)),
-    the second-order extrapolation is not trusted: that figure's error is the first-order
-    one, three times larger, and the result says so ("order" below 2)."""
+    ``previous``: the check of the grid before (three grids in all).  The order is then
+    observed per figure, p = log2(d_before / d_last), and the error is Roache's three-grid
+    estimate 1.25 d_last / (2^p - 1) with p capped at the scheme's order 2.  Where the
+    difference shrank more slowly than first order (p < 1: a resonance the grid moves across
+    a harmonic, a surface mode whose interface the staggered grid places to O(dx)), the
+    extrapolation is not trusted: that figure gets the two-grid first-order error
+    3 d_last / (2 - 1) and the result says so ("order" below 1)."""
     m_max = coarse_nx // M_MAX_FRACTION_2D if (p.polarization != "1d" and p.source_kind == "dipole") \
         else coarse_nx // 2
     k_max = 2 * np.pi * m_max / p.length
     c = _restricted(coarse_spectrum, k_max)
     diff = _pointwise_errors(fine_spectrum, coarse_spectrum, p.length, k_max)
-    errors = {k: SAFETY * diff[k] / (FACTOR**2 - 1) for k in FIGURES}
-    order = 2
+    errors = {k: SAFETY_TWO_GRIDS * diff[k] / (FACTOR**2 - 1) for k in FIGURES}
+    order = 2.0
     if previous and previous.get("differences"):
         for k in FIGURES:
-            if diff[k] > previous["differences"][k] / FACTOR:      # slower than first order
-                errors[k] = SAFETY * diff[k] / (FACTOR - 1)
-                order = 1
+            before, last = previous["differences"][k], diff[k]
+            if last <= 0:
+                errors[k] = 0.0
+                continue
+            obs = np.log(before / last) / np.log(FACTOR) if before > 0 else 0.0
+            if obs < 1.0:                                   # slower than first order
+                errors[k] = SAFETY_TWO_GRIDS * last / (FACTOR - 1)
+            else:
+                q = min(obs, 2.0)
+                errors[k] = SAFETY_THREE_GRIDS * last / (FACTOR**q - 1)
+            if k in ("total", "normal", "anomalous"):
+                order = min(order, float(obs))
     return {"errors": errors, "coarse": c, "differences": diff, "order": order,
             "relative": relative_grid_error(p, fine_spectrum, errors, floor)}
 
@@ -149,6 +163,8 @@ def relative_grid_error(p: Plan, spec, errors: dict, floor: float = 0.0) -> floa
         return float("nan")
     total = abs(float(spec.total))
     if max(total, floor) == 0:
+        return 0.0
+    if total + errors["total"] <= floor:      # zero within the zero level, grid error included
         return 0.0
     rel = errors["total"] / max(total, floor)
     if p.source_kind == "dipole":

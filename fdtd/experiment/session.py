@@ -215,6 +215,10 @@ def _grid_checked(exp: Experiment, group, progress):
         rel = grid.get("relative", float("nan"))
         if not rel > p.grid_tol:          # within tolerance (or no estimate): done
             break
+        if exp.state.get("steady") is False:
+            p.notes.append("no grid refinement: the run did not settle within run.max_time, and a finer grid "
+                           "does not make it settle (raise run.max_time first)")
+            break
         r = refined_plan(p)
         try:
             guard(r, p.where)            # the same limits as any run: refine only what fits

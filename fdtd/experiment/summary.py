@@ -16,6 +16,7 @@ import numpy as np
 
 from fdtd.errors import GapwakeError
 from fdtd.io.results import si_of
+from fdtd.recording.steady import at_zero
 from fdtd.reference.thresholds import RESOLVED_KDX
 from fdtd.sources.shapes import Shape
 
@@ -123,6 +124,10 @@ def summarise(exp, status: str, grid: dict | None = None, isolated: dict | None 
             else:
                 err = error(attr)
             F.fig(name, getattr(spec, attr), q, err)
+            if attr == "total" and at_zero(spec.total, err, exp.zero_power):
+                p.notes.append(f"the total power is zero to within the zero level "
+                               f"{exp.zero_power * p.units.power:.3g} {si_of(p.units, 'power')[0]} (error "
+                               "included): below it a power counts as zero (fdtd.recording.steady)")
         F.fig("unresolved_power", spec.unresolved, "power")
         if grid is not None:
             _grid_figures(p, spec, grid, F)
@@ -229,14 +234,18 @@ def _grid_figures(p, spec, grid: dict, F: _Figures) -> None:
         return
     rel = errs["total"] / abs(spec.total) if spec.total else float("nan")
     F.plain("grid_error_of_total", rel, "1", normalized=rel)
-    if grid.get("order") == 1:
-        p.notes.append("grid error estimated at first order: between the last two grids the difference shrank "
-                       "more slowly than second order (a resonance or surface mode the grid moves); refine "
-                       "grid.cell further to trust these figures")
+    order = grid.get("order", 2.0)
+    if order < 1:
+        p.notes.append(f"grid error estimated at first order: between the last two grids the difference shrank "
+                       f"more slowly than first order (observed order {order:.2g}: a resonance or surface mode "
+                       "the grid moves); refine grid.cell further to trust these figures")
+    elif order < 2:
+        p.notes.append(f"grid error estimated at the observed order {order:.2g} of the last three grids")
     F.fig("coarse_grid_total_power", grid["coarse"]["total"], "power")
     if rel > GRID_WARNING:
         F.plain("warning_grid_resolution",
-                f"the total power changes by {100 * rel * 3 / 1.5:.0f} % between this grid and one twice "
+                f"the total power changes by {100 * grid['differences']['total'] / abs(spec.total):.0f} % "
+                f"between this grid and one twice "
                 f"as coarse (estimated discretization error {100 * rel:.0f} %): refine grid.cell")
 
 

@@ -313,6 +313,77 @@ class DopplerWorkRecorder(_Checkpointable):
             self.work0 = solver.source_work
             self.t_first = solver.step_count * solver.dt
 
+    # -- blocks of steps (1D: fdtd.solver.block1d) --------------------------
+    @property
+    def accepts_blocks(self) -> bool:
+        return self.solver.model.grid.dims == 1 and not self.complex
+
+    def _weights(self, t):
+        """Taper weights (..., n_w) at times t (array)."""
+        t = np.asarray(t, dtype=float)
+        if self.duration is None:
+            return np.ones(t.shape + (1,))
+        x = (t - self.start) / self.duration
+        s2 = np.sin(2 * np.pi * x) ** 2
+        return np.stack([np.sin(np.pi * x) ** 2, np.where(x < 0.5, s2, 0.0), np.where(x >= 0.5, s2, 0.0)],
+                        axis=-1)
+
+    def block_samples(self, solver, m: int) -> np.ndarray:
+        """Which of the next ``m`` steps this recorder samples (the test of :meth:`before_step`)."""
+        n = solver.step_count + np.arange(m)
+        t_half = (n + 0.5) * solver.dt
+        ok = (t_half >= self.start) & ((n - self._anchor) % self.every == 0)
+        if self.duration is not None:
+            ok &= t_half <= self.start + self.duration
+        return ok
+
+    def after_block(self, solver, block) -> None:
+        """Demodulate the sampled steps of a block (:class:`fdtd.solver.block1d.Block`)."""
+        mine = self.block_samples_at(block)
+        if not mine.any():
+            return
+        dt = solver.dt
+        rows = np.cumsum(block.sample) - 1                  # row of each sampled step in ebar
+        idx = np.nonzero(mine)[0]
+        n = block.step0 + idx
+        t = (n + 0.5) * dt
+        weights = self._weights(t)
+        if self.work0 is None:
+            self.work0 = block.work_before[idx[0]]
+            self.t_first = n[0] * dt
+        Epos = np.fft.rfft(block.ebar[rows[idx]], axis=-1)
+        Jhat = np.empty((idx.size, self.k.size), dtype=complex)
+        flat = np.ascontiguousarray(block.flat[idx])
+        J = np.ascontiguousarray(block.J[idx])
+        if self._table is not None:
+            demod.sparse_dft_block(Jhat, flat, J, self._table)
+        else:
+            Jhat[...] = (J[:, :, None] * np.exp(-1j * self.k[None, None, :] * self._x_of_i[flat][:, :, None])).sum(1)
+        omega = self._k_speed[None, :] + self._line_freq[:, None]
+        phase0 = np.exp(1j * omega * t[0])
+        rot = np.exp(1j * omega * dt)
+        gaps = np.concatenate([[0], np.diff(n)]).astype(np.int64)
+        demod.accumulate_half_block(self.A, self.B, Jhat, Epos, self._src_index, self._conj, phase0, rot, gaps,
+                                    weights)
+        self.wsum += weights.sum(axis=0)
+        if len(self.lines) == 2:
+            self.csum += (weights * np.exp(2j * self.Omega * t)[:, None]).sum(axis=0)
+        w0 = weights[:, 0]
+        self.n_samples += idx.size
+        self.weight_sum += float(w0.sum())
+        self.t_last = (n[-1] + 1) * dt
+        self.work_last = block.work_before[idx[-1] + 1]
+        self.weighted_work += float(np.sum(w0 * (block.work_before[idx + 1] - block.work_before[idx])))
+        self.weighted_time += float(w0.sum()) * dt
+
+    def block_samples_at(self, block) -> np.ndarray:
+        n = block.step0 + np.arange(block.m)
+        t_half = (n + 0.5) * self.solver.dt
+        ok = (t_half >= self.start) & ((n - self._anchor) % self.every == 0)
+        if self.duration is not None:
+            ok &= t_half <= self.start + self.duration
+        return ok
+
     def after_step(self, solver, injections) -> None:
         if self._e0 is None:
             return

@@ -66,8 +66,20 @@ def remaining_drift(deltas: list[float]) -> float:
     return max(d1, d2)
 
 
+def at_zero(value: float, error: float, zero: float) -> bool:
+    """A figure that, error included, stays below the zero level: it has settled at zero
+    (its error bar, at most ``zero``, is what is reported; below a Cherenkov threshold the
+    power is grid noise of the near-field exchange that changes by tens of per cent between
+    windows and never settles relative to itself)."""
+    return zero > 0 and abs(value) + error <= zero
+
+
 def window_convergence(history: list[dict], tol: float, zero: float, figures=DIPOLE_FIGURES):
     """(steady, time_errors) from the figures of successive windows.
+
+    A figure has settled when its remaining drift is below ``tol`` times its size (or the
+    total's share, or ``zero``), or when value and drift together stay below ``zero``
+    (:func:`at_zero`).
 
     ``history`` is a list (oldest first) of dicts figure -> value (normalized units);
     ``zero`` the power below which a figure counts as zero (ZERO_DIPOLE, ZERO_CHARGE).
@@ -85,7 +97,7 @@ def window_convergence(history: list[dict], tol: float, zero: float, figures=DIP
         if f not in TESTED:
             continue
         ref = max(total, zero) if f == "total" else max(abs(last[f]), SHARE_OF_TOTAL * total, zero)
-        if err > tol * ref:
+        if err > tol * ref and not at_zero(last[f], err, zero):
             steady = False
     return steady, errors
 

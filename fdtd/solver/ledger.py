@@ -34,6 +34,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from fdtd.solver.kernels import energy as ek
+from fdtd.solver.kernels import inject as injk
 from fdtd.solver.kernels import nonlocal_pole as nlk
 
 
@@ -141,9 +142,15 @@ class EnergyLedger:
                         self._flux.append((g.e_components[a], g.h_components[b], ei[sel], hi[sel], ww[sel]))
 
     def flux_gather(self) -> list[np.ndarray]:
-        """E^n on the box faces (called before the step)."""
+        """E^n on the box faces (called before the step; the buffers are reused)."""
         f = self.solver.fields
-        return [f[ec].reshape(-1)[ei] for ec, _hc, ei, _hi, _w in self._flux]
+        if self.solver.complex_fields:
+            return [f[ec].reshape(-1)[ei] for ec, _hc, ei, _hi, _w in self._flux]
+        if not hasattr(self, "_face_e0"):
+            self._face_e0 = [np.empty(ei.size) for _ec, _hc, ei, _hi, _w in self._flux]
+        for (ec, _hc, ei, _hi, _w), buf in zip(self._flux, self._face_e0):
+            injk.gather(f[ec].reshape(-1), ei, buf)
+        return self._face_e0
 
     def flux_accumulate(self, before: list[np.ndarray]) -> None:
         """Add dt * outward Poynting flux of this step (called after the step)."""
@@ -151,11 +158,11 @@ class EnergyLedger:
         cplx = self.solver.complex_fields
         tot = 0.0
         for (ec, hc, ei, hi, w), e0 in zip(self._flux, before):
-            ebar = 0.5 * (e0 + f[ec].reshape(-1)[ei])
             if cplx:
+                ebar = 0.5 * (e0 + f[ec].reshape(-1)[ei])
                 tot += float(np.vdot(w * ebar, f[hc].reshape(-1)[hi]).real)
             else:
-                tot += float(np.dot(w * ebar, f[hc].reshape(-1)[hi]))
+                tot += injk.face_flux(f[ec].reshape(-1), f[hc].reshape(-1), ei, hi, w, e0)
         self.outflow += self.solver.dt * tot
 
     # -- stored energy ---------------------------------------------------

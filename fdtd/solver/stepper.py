@@ -28,6 +28,7 @@ import numpy as np
 from fdtd import _checks
 from fdtd.errors import GeometryError, InstabilityError, ParameterError
 from fdtd.solver.kernels import energy as ek
+from fdtd.solver.kernels import inject as injk
 from fdtd.solver.kernels import nonlocal_pole as nlk
 from fdtd.solver.kernels.yee1d import step_1d
 from fdtd.solver.kernels.yee_te import step_te
@@ -40,6 +41,16 @@ from fdtd.space.stability import courant_number
 
 #: grids smaller than this run on one thread by default (parallel regions cost ~10 us)
 SMALL_GRID_CELLS = 250_000
+
+
+_threads_in_use = [None]
+
+
+def _use_threads(n: int) -> None:
+    """numba.set_num_threads(n), skipped when n is already set (it costs ~10 us a call)."""
+    if _threads_in_use[0] != n or numba.get_num_threads() != n:
+        numba.set_num_threads(n)
+        _threads_in_use[0] = n
 
 
 def staggered_zeros(shape, k: int, dtype=np.float64) -> np.ndarray:
@@ -79,8 +90,9 @@ class Solver:
         Keep the energy ledger (bath tally in the kernels, flux on the box faces).
     ledger_margin : int
         Cells between the absorbing layers and the ledger box.
-    check_every : int
-        Steps between guard-rail checks (non-finite fields, runaway energy).
+    check_every : int, optional
+        Steps between guard-rail checks (non-finite fields, runaway energy); default
+        50, and 256 in 1D, where a check costs as much as several steps.
     allow_unstable_dt : bool
         Accept a ``dt`` above the stability limit (with a warning); the guard
         rails then stop the run when it blows up.
@@ -88,7 +100,7 @@ class Solver:
 
     def __init__(self, model: Model, dt: float | None = None, courant: float | None = None,
                  sources=(), threads: int | None = None, ledger: bool = True,
-                 ledger_margin: int = 1, check_every: int = 50, allow_unstable_dt: bool = False):
+                 ledger_margin: int = 1, check_every: int | None = None, allow_unstable_dt: bool = False):
         if not isinstance(model, Model):
             raise ParameterError(f"model = {model!r}: expected an fdtd.Model")
         self.model = model
@@ -105,6 +117,8 @@ class Solver:
             raise ParameterError(
                 f"threads = {threads} is not allowed: this machine offers at most "
                 f"{numba.config.NUMBA_NUM_THREADS} (NUMBA_NUM_THREADS)")
+        if check_every is None:
+            check_every = 256 if g.dims == 1 else 50
         self.check_every = _checks.positive_int("check_every", check_every)
         self.step_count = 0
         # Bloch edge on x: complex state, wrap factor exp(i theta) of complex dtype;
@@ -149,6 +163,9 @@ class Solver:
                       for c, s in model.segments.items()}
         self._flat_mix = {c: model.mix_maps[c].reshape(-1) for c in g.e_components}
         self._setup_nonlocal()
+        # the 1D kernel's work rows, kept so that no step allocates
+        self._scratch_1d = (np.empty(g.shape, self.dtype), np.empty(g.shape, self.dtype)) \
+            if g.polarization == "1d" else ()
 
         # ---- ledger ----------------------------------------------------------
         self.ledger: EnergyLedger | None = None
@@ -307,14 +324,14 @@ class Solver:
         if g.polarization == "te":
             Px, Pxo = self.polarization["Ex"]
             Py, Pyo = self.polarization["Ey"]
-            numba.set_num_threads(self.threads)
+            _use_threads(self.threads)
             step_te(f["Ex"], f["Ey"], f["Hz"], Px, Pxo, Py, Pyo, self._segs["Ex"], self._segs["Ey"],
                     self._coef, self._prof[0], self._prof[1], psi["hz_x"], psi["ey_x"], psi["hz_y"],
                     psi["ex_y"], self.threads, t, self.bath_rows, self._gid, self._bathc,
                     self._tally_boxes["Ex"], self._tally_boxes["Ey"], ph)
         elif g.polarization == "tm":
             Pz, Pzo = self.polarization["Ez"]
-            numba.set_num_threads(self.threads)
+            _use_threads(self.threads)
             step_tm(f["Ez"], f["Hx"], f["Hy"], Pz, Pzo, self._segs["Ez"], self._coef, self._prof[0],
                     self._prof[1], psi["hy_x"], psi["ez_x"], psi["hx_y"], psi["ez_y"], self.threads,
                     t, self.bath_rows, self._gid, self._bathc, self._tally_boxes["Ez"], ph)
@@ -322,43 +339,94 @@ class Solver:
             Py, Pyo = self.polarization["Ey"]
             step_1d(f["Ey"], f["Hz"], Py, Pyo, self._segs["Ey"], self._coef, self._prof[0],
                     psi["hz_x"], psi["ey_x"], t, self.bath_rows[0], self._gid, self._bathc,
-                    self._tally_boxes["Ey"], ph)
+                    self._tally_boxes["Ey"], ph, *self._scratch_1d)
+
+    #: steps whose source currents are evaluated together (bounded scratch memory)
+    BLOCK = 256
 
     def step(self, n: int = 1) -> None:
-        """Advance ``n`` steps (no guard rails; see :meth:`run`)."""
+        """Advance ``n`` steps (no guard rails; see :meth:`run`).
+
+        Sources that can (:meth:`~fdtd.sources.prescribed.Source.block_currents`) hand the
+        currents of up to :attr:`BLOCK` steps at once; injection and work then run in
+        compiled code (real fields), and a 1D run whose observers all accept blocks
+        advances the whole block in one compiled call (:mod:`fdtd.solver.block1d`)."""
+        done = 0
+        while done < n:
+            m = min(self.BLOCK, n - done)
+            pre = self._block_currents(m)
+            if pre is not None and self._block_1d_possible():
+                from fdtd.solver.block1d import advance_block_1d
+
+                advance_block_1d(self, m, pre)
+            else:
+                self._step_each(m, pre)
+            done += m
+
+    def _block_currents(self, m: int):
+        """Per source, its currents for the next ``m`` steps (lists of (comp, flat (m, w),
+        J (m, w))), or None when a source is evaluated step by step."""
+        if not self.sources or self.complex_fields:
+            return None
+        t_levels = (self.step_count + np.arange(m + 1)) * self.dt
+        out = []
+        for src in self.sources:
+            cur = src.block_currents(t_levels)
+            if cur is None:
+                return None
+            out.append(cur)
+        return out
+
+    def _block_1d_possible(self) -> bool:
+        return (self.grid.polarization == "1d" and len(self.nonlocal_entries.get("Ey", ())) <= 1
+                and all(getattr(o, "accepts_blocks", False) for o in self.observers))
+
+    def _step_each(self, n: int, pre=None) -> None:
+        """Advance ``n`` steps one by one (``pre``: the sources' block currents, if any)."""
         dt = self.dt
         inv_eps = self.tables["inv_eps"]
         dV = self.grid.cell_volume
         jtype = self.dtype
         cplx = self.complex_fields
-        for _ in range(n):
+        for step in range(n):
             t_half = (self.step_count + 0.5) * dt
             inj = []
-            for src in self.sources:
-                for comp, flat, J in src.currents(t_half):
-                    if flat.size:
-                        J = np.asarray(J)
-                        if not cplx and np.iscomplexobj(J):
-                            raise ParameterError(
-                                f"source {src!r} handed a complex current to {comp} in a real run: "
-                                "complex currents need a Bloch edge on x (fdtd.space.edges.Bloch)")
-                        inj.append((comp, flat, np.asarray(J, dtype=jtype),
-                                    self.fields[comp].reshape(-1)[flat]))
+            if pre is not None:
+                for cur in pre:
+                    for comp, flat, J in cur:
+                        ef = self.fields[comp].reshape(-1)
+                        e0 = np.empty(flat.shape[1])
+                        injk.gather(ef, flat[step], e0)
+                        inj.append((comp, flat[step], J[step], e0))
+            else:
+                for src in self.sources:
+                    for comp, flat, J in src.currents(t_half):
+                        if flat.size:
+                            J = np.asarray(J)
+                            if not cplx and np.iscomplexobj(J):
+                                raise ParameterError(
+                                    f"source {src!r} handed a complex current to {comp} in a real run: "
+                                    "complex currents need a Bloch edge on x (fdtd.space.edges.Bloch)")
+                            inj.append((comp, flat, np.asarray(J, dtype=jtype),
+                                        self.fields[comp].reshape(-1)[flat]))
             flux_before = self.ledger.flux_gather() if self.ledger is not None else None
             for obs in self.observers:
                 obs.before_step(self)
             self._kernel()
             work = 0.0
-            for comp, flat, J, _e0 in inj:
-                ef = self.fields[comp].reshape(-1)
-                np.subtract.at(ef, flat, dt * J * inv_eps[self._flat_mix[comp][flat]])
-            for comp, flat, J, e0 in inj:
-                e1 = self.fields[comp].reshape(-1)[flat]
-                if cplx:
+            if cplx:
+                for comp, flat, J, _e0 in inj:
+                    ef = self.fields[comp].reshape(-1)
+                    np.subtract.at(ef, flat, dt * J * inv_eps[self._flat_mix[comp][flat]])
+                for comp, flat, J, e0 in inj:
+                    e1 = self.fields[comp].reshape(-1)[flat]
                     # Hermitian work -dt Re sum conj(J) . Ebar dV (docs/theory/bloch-cell.md)
                     work -= dt * float(np.vdot(J, 0.5 * (e0 + e1)).real) * dV
-                else:
-                    work -= dt * float(np.dot(J, 0.5 * (e0 + e1))) * dV
+            else:
+                for comp, flat, J, _e0 in inj:
+                    injk.inject(self.fields[comp].reshape(-1), flat, J, dt, inv_eps, self._flat_mix[comp])
+                for comp, flat, J, e0 in inj:
+                    work -= dt * injk.mean_field_dot(self.fields[comp].reshape(-1), flat, J, e0) * dV
             self.source_work += work
             self.injected_abs += abs(work)
             if self.ledger is not None:

@@ -40,7 +40,7 @@ from fdtd import _checks
 from fdtd.errors import GeometryError, ParameterError
 from fdtd.solver.kernels import deposit
 from fdtd.sources.shapes import Shape
-from fdtd.sources.prescribed import Source, smooth_ramp
+from fdtd.sources.prescribed import Source, smooth_ramp, smooth_ramp_array
 from fdtd.sources.worldlines import WorldLine
 
 
@@ -367,6 +367,53 @@ class MovingDipole(_MovingSource):
         self._check_inside(t_half + 0.5 * self.dt)
         self._check_speed(t_half)
         return self._currents_for(self.lab_moment, t_half)
+
+    def block_currents(self, t_levels: np.ndarray):
+        """The currents of ``n = len(t_levels) - 1`` successive steps at once, step s running
+        from ``t_levels[s]`` to ``t_levels[s + 1]``: a list of ``(component, flat (n, w)
+        int64, J (n, w) float64)`` (padding: index 0, value 0), or None where only the
+        per-step form applies (a Bloch cell, a world line with a speed ramp).  The same
+        deposit as :meth:`currents`, evaluated in compiled code for the whole block."""
+        wl = self.worldline
+        if self.bloch_theta is not None or not hasattr(wl, "velocity_vector") or wl.ramp > 0:
+            return None
+        t = np.asarray(t_levels, dtype=float)
+        self._check_inside(float(t[0]))
+        self._check_inside(float(t[-1]))
+        g = self.grid
+        origin, spacing = np.asarray(g.origin), np.asarray(g.spacing)
+        X = (np.asarray(wl.start) + np.asarray(wl.velocity_vector) * t[:, None] - origin) / spacing
+        v = np.zeros(3)
+        v[: wl.dims] = wl.velocity_vector
+        direction = np.zeros(3)
+        direction[AXES[self.axis]] = 1.0
+        s2 = float(v @ v)
+        if s2 > 0:
+            vhat = v / math.sqrt(s2)
+            direction = direction - (1.0 - math.sqrt(1.0 - s2)) * (direction @ vhat) * vhat
+        tau = t * math.sqrt(1.0 - wl.speed ** 2)
+        rest = self.moment * smooth_ramp_array(tau, self.ramp) * np.cos(self.omega0 * tau + self.phase)
+        o, sc, dt = self.shape.order, self.shape.scale, self.dt
+        n = t.size - 1
+        step_cells = np.abs(X[1] - X[0]) if n > 0 else np.zeros(wl.dims)
+        if g.polarization == "1d":
+            w = deposit.block_width(o, sc, step_cells[0])
+            flat, J = np.empty((n, w), np.int64), np.empty((n, w))
+            deposit.dipole_1d_block(np.ascontiguousarray(X[:, 0]), rest * direction[1], o, sc, g.spacing[0], dt,
+                                    g.shape[0], bool(self.periodic[0]), flat, J)
+            return [("Ey", flat, J)]
+        w = deposit.block_width(o, sc, step_cells[0]) * deposit.block_width(o, sc, step_cells[1])
+        args = (o, sc, g.spacing[0], g.spacing[1], dt, g.shape[0], g.shape[1], bool(self.periodic[0]),
+                bool(self.periodic[1]))
+        Xc, Yc = np.ascontiguousarray(X[:, 0]), np.ascontiguousarray(X[:, 1])
+        flat = np.empty((n, w), np.int64)
+        if g.polarization == "te":
+            Jx, Jy = np.empty((n, w)), np.empty((n, w))
+            deposit.dipole_te_block(Xc, Yc, rest * direction[0], rest * direction[1], *args, flat, Jx, Jy)
+            return [("Ex", flat, Jx), ("Ey", flat, Jy)]
+        Jz = np.empty((n, w))
+        deposit.dipole_tm_block(Xc, Yc, rest * direction[2], *args, flat, Jz)
+        return [("Ez", flat, Jz)]
 
     def _currents_for(self, moment, t_half: float):
         """Deposit the current of the moment function ``moment(t)`` (3-vector) over one step."""

@@ -36,6 +36,15 @@ def smooth_ramp(t: float, ramp: float) -> float:
     return x * x * x * (10.0 - 15.0 * x + 6.0 * x * x)
 
 
+def smooth_ramp_array(t: np.ndarray, ramp: float) -> np.ndarray:
+    """:func:`smooth_ramp` of every element of ``t`` (the same arithmetic)."""
+    t = np.asarray(t, dtype=float)
+    if ramp <= 0.0:
+        return np.where(t >= 0.0, 1.0, 0.0)
+    x = np.clip(t / ramp, 0.0, 1.0)
+    return np.where(t >= ramp, 1.0, np.where(t <= 0.0, 0.0, x * x * x * (10.0 - 15.0 * x + 6.0 * x * x)))
+
+
 @dataclass(frozen=True)
 class ContinuousWave(Waveform):
     """``amplitude * ramp(t) * cos(omega t + phase)``.
@@ -96,6 +105,12 @@ class Source:
     def currents(self, t_half: float):
         """List of ``(component, flat_index (int64 array), J values (float array))``."""
         raise NotImplementedError  # pragma: no cover
+
+    def block_currents(self, t_levels):
+        """The currents of several steps at once (see
+        :meth:`fdtd.sources.moving.MovingDipole.block_currents`), or None: this source
+        is evaluated step by step."""
+        return None
 
 
 class PrescribedCurrent(Source):

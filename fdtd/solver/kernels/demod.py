@@ -101,3 +101,64 @@ def accumulate_half(A, B, Jhat, Epos, src_index, conj_flag, phase, weights):
                         p = ww * ph[m]
                         Ar[m] += p * Jr[m]
                         Br[m] += p * np.conj(Er[src_index[m]])
+
+
+@njit(**SERIAL)
+def sparse_dft_block(Jhat, flat, J, table):
+    """Jhat[s, m] = sum_k J[s, k] table[flat[s, k], m] (one recorded row, all sampled steps)."""
+    ns, nm = Jhat.shape
+    for s in range(ns):
+        for m in range(nm):
+            Jhat[s, m] = 0.0
+        for k in range(flat.shape[1]):
+            v = J[s, k]
+            if v == 0.0:
+                continue
+            row = table[flat[s, k]]
+            for m in range(nm):
+                Jhat[s, m] += v * row[m]
+
+
+@njit(**SERIAL)
+def accumulate_half_block(A, B, Jhat, Epos, src_index, conj_flag, phase0, rot, gaps, weights):
+    """:func:`accumulate_half` for the sampled steps of a block (one component, one row).
+
+    ``Jhat`` (ns, n_m), ``Epos`` (ns, nx//2 + 1); ``phase0`` (n_lines, n_m) the phases at
+    the first sampled step, ``rot`` (n_lines, n_m) their factor per step, ``gaps`` (ns,)
+    steps from the previous sample (gaps[0] = 0); ``weights`` (ns, n_w).  The harmonic
+    slots list m >= 0 first (numpy fft order), as in :func:`accumulate_half`."""
+    nw, nl = A.shape[0], A.shape[1]
+    nm = A.shape[4]
+    ns = Jhat.shape[0]
+    n_pos = 0
+    while n_pos < nm and not conj_flag[n_pos]:
+        n_pos += 1
+    ph = phase0.copy()
+    e = np.empty(nm, dtype=np.complex128)
+    tj = np.empty(nm, dtype=np.complex128)
+    te = np.empty(nm, dtype=np.complex128)
+    for s in range(ns):
+        for _g in range(gaps[s]):
+            for a in range(nl):
+                for m in range(nm):
+                    ph[a, m] *= rot[a, m]
+        Er = Epos[s]
+        for m in range(n_pos):
+            e[m] = Er[src_index[m]]
+        for m in range(n_pos, nm):
+            e[m] = np.conj(Er[src_index[m]])
+        Jr = Jhat[s]
+        for a in range(nl):
+            pa = ph[a]
+            for m in range(nm):
+                tj[m] = pa[m] * Jr[m]
+                te[m] = pa[m] * e[m]
+            for w in range(nw):
+                ww = weights[s, w]
+                if ww == 0.0:
+                    continue
+                Ar = A[w, a, 0, 0]
+                Br = B[w, a, 0, 0]
+                for m in range(nm):
+                    Ar[m] += ww * tj[m]
+                    Br[m] += ww * te[m]

@@ -221,3 +221,80 @@ def dipole_1d(Xs, pys, order, scale, dx, dt):
             ma = mz_amp * A[a - 1] if a > 0 else 0.0
             jy[a] -= (m - ma) / dx          # (curl M)_y = -dMz/dx
     return i0, jy
+
+
+# -- blocks of steps ------------------------------------------------------------------
+# The same deposits for n successive steps in one call, written into padded arrays
+# (flat storage index, value) of fixed width: the solver then injects them without a
+# Python-side evaluation per step.  Padding entries have index 0 and value 0.
+
+@njit(**SERIAL)
+def _wrap(i, n, periodic):
+    if periodic:
+        i = i % n
+        if i < 0:
+            i += n
+    return i
+
+
+@njit(**SERIAL)
+def dipole_1d_block(X, py, order, scale, dx, dt, nx, periodic, flat, J):
+    """Steps s = 0..n-1 of :func:`dipole_1d` from the levels X[s], X[s+1] (cells) and
+    py[s], py[s+1]; writes flat (n, w) int64 and J (n, w) float64 (w large enough:
+    see :func:`block_width`)."""
+    n, w = J.shape
+    for s in range(n):
+        i0, jy = dipole_1d(X[s:s + 2], py[s:s + 2], order, scale, dx, dt)
+        for k in range(w):
+            flat[s, k] = 0
+            J[s, k] = 0.0
+        for a in range(jy.shape[0]):
+            flat[s, a] = _wrap(i0 + a, nx, periodic)
+            J[s, a] = jy[a]
+
+
+@njit(**SERIAL)
+def dipole_te_block(X, Y, px, py, order, scale, dx, dy, dt, nx, ny, px_periodic, py_periodic,
+                    flat, Jx, Jy):
+    """Steps of :func:`dipole_te` (levels as in :func:`dipole_1d_block`); Ex and Ey share
+    the patch indices ``flat`` (n, w)."""
+    n, w = Jx.shape
+    for s in range(n):
+        i0, j0, jx, jy = dipole_te(X[s:s + 2], Y[s:s + 2], px[s:s + 2], py[s:s + 2], order, scale,
+                                   dx, dy, dt)
+        for k in range(w):
+            flat[s, k] = 0
+            Jx[s, k] = 0.0
+            Jy[s, k] = 0.0
+        ni, nj = jx.shape
+        for a in range(ni):
+            ii = _wrap(i0 + a, nx, px_periodic)
+            for b in range(nj):
+                jj = _wrap(j0 + b, ny, py_periodic)
+                flat[s, a * nj + b] = ii * ny + jj
+                Jx[s, a * nj + b] = jx[a, b]
+                Jy[s, a * nj + b] = jy[a, b]
+
+
+@njit(**SERIAL)
+def dipole_tm_block(X, Y, pz, order, scale, dx, dy, dt, nx, ny, px_periodic, py_periodic, flat, Jz):
+    """Steps of :func:`dipole_tm` (levels as in :func:`dipole_1d_block`)."""
+    n, w = Jz.shape
+    for s in range(n):
+        i0, j0, jz = dipole_tm(X[s:s + 2], Y[s:s + 2], pz[s:s + 2], order, scale, dx, dy, dt)
+        for k in range(w):
+            flat[s, k] = 0
+            Jz[s, k] = 0.0
+        ni, nj = jz.shape
+        for a in range(ni):
+            ii = _wrap(i0 + a, nx, px_periodic)
+            for b in range(nj):
+                flat[s, a * nj + b] = ii * ny + _wrap(j0 + b, ny, py_periodic)
+                Jz[s, a * nj + b] = jz[a, b]
+
+
+def block_width(order: int, scale: int, step_cells: float) -> int:
+    """Patch length along one axis that holds every step's deposit (:func:`_span` plus a
+    margin) for a source moving at most ``step_cells`` cells per step."""
+    hs = 0.5 * (order + 1) * scale
+    return int(math.ceil(2 * hs + abs(step_cells))) + 5

@@ -70,21 +70,33 @@ def _laplacian_at(P, s, mix, nlg, g, diag, i, j, inv_h2, periodic, r0, r1, q0, q
     return acc
 
 
+@njit(**SERIAL)
+def _prepass_row(P, Po, s, mix, nlg, c4, diag, inv_h2, periodic, Q, Pold, i):
+    nc = mix.shape[1]
+    for j in range(nc):
+        g = nlg[mix[i, j], s]
+        if g < 0:
+            Q[i, j] = 0.0
+            continue
+        Q[i, j] = c4[mix[i, j], s] * _laplacian_at(P, s, mix, nlg, g, diag, i, j, inv_h2,
+                                                  periodic, 0, mix.shape[0], 0, nc)
+        Pold[i, j] = Po[s, i, j]
+
+
 @njit(**PARALLEL)
 def prepass(P, Po, s, mix, nlg, c4, diag, inv_h2, periodic, rows, Q, Pold):
     """Q = c4 L P^n and Pold = P^{n-1} on the nodes of nonlocal slot ``s``.
 
     ``rows`` = (first, stop) row range that holds such nodes."""
-    nc = mix.shape[1]
     for i in prange(rows[0], rows[1]):
-        for j in range(nc):
-            g = nlg[mix[i, j], s]
-            if g < 0:
-                Q[i, j] = 0.0
-                continue
-            Q[i, j] = c4[mix[i, j], s] * _laplacian_at(P, s, mix, nlg, g, diag, i, j, inv_h2,
-                                                      periodic, 0, mix.shape[0], 0, nc)
-            Pold[i, j] = Po[s, i, j]
+        _prepass_row(P, Po, s, mix, nlg, c4, diag, inv_h2, periodic, Q, Pold, i)
+
+
+@njit(**SERIAL)
+def prepass_serial(P, Po, s, mix, nlg, c4, diag, inv_h2, periodic, rows, Q, Pold):
+    """:func:`prepass` on one thread (from compiled loops over steps)."""
+    for i in range(rows[0], rows[1]):
+        _prepass_row(P, Po, s, mix, nlg, c4, diag, inv_h2, periodic, Q, Pold, i)
 
 
 @njit(**SERIAL)

@@ -14,7 +14,6 @@ bit).  In a Bloch cell all field, polarization and psi arrays are complex128.
 
 from __future__ import annotations
 
-import numpy as np
 from numba import njit
 
 from fdtd.solver.kernels.common import update_e_row
@@ -23,8 +22,9 @@ from fdtd.solver.kernels.options import SERIAL
 
 @njit(**SERIAL)
 def step_1d(Ey, Hz, Py, Pyo, seg, coef, prof_x, psi_hz_x, psi_ey_x, tally, bath_row, gid,
-            bathc, box, wrap_phase):
-    """Advance (Ey, Hz) and the polarization by one step."""
+            bathc, box, wrap_phase, curl, dsum):
+    """Advance (Ey, Hz) and the polarization by one step; ``curl`` and ``dsum`` are
+    scratch arrays like Ey (kept by the caller: nothing is allocated per step)."""
     n = Ey.shape[0]
     nlo, nhi, ck_i, ck_h, b_i, c_i, b_h, c_h = prof_x
     inv_eps, n_poles, c1, c2, c3 = coef
@@ -42,8 +42,6 @@ def step_1d(Ey, Hz, Py, Pyo, seg, coef, prof_x, psi_hz_x, psi_ey_x, tally, bath_
             ip = 0
         psi_hz_x[ii] = b_h[i] * psi_hz_x[ii] + c_h[i] * (Ey[ip] - Ey[i])
         Hz[i] -= psi_hz_x[ii]
-    curl = np.empty_like(Ey)
-    dsum = np.empty_like(Ey)
     # Hz at index -1 is the previous cell's Hz[n-1] = exp(-i theta) Hz[n-1]
     curl[0] = -ck_i[0] * (Hz[0] - wrap_phase.conjugate() * Hz[n - 1])
     for i in range(1, n):

@@ -1,0 +1,91 @@
+"""A block of 1D steps in compiled code, with the sources' currents of the block and the
+observers that accept blocks (:class:`Block`).
+
+:meth:`fdtd.solver.stepper.Solver.step` comes here when the grid is 1D, the fields real,
+there is no nonlocal pole, every source hands block currents and every observer accepts
+blocks; otherwise it steps one by one.  Both give the same physics to round-off (tested:
+tests/test_block_stepping.py).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from fdtd.solver.kernels.block1d import advance_1d
+
+
+@dataclass
+class Block:
+    """What observers see of a block of ``m`` steps starting at ``step0``.
+
+    ``sample`` (m,) bool: the steps whose mean field was kept; ``ebar`` (n_sampled, n)
+    E-bar of those steps (the one E component: Ey); ``flat``, ``J`` (m, w): the sources'
+    nodes and currents; ``work_before`` (m + 1,): the solver's cumulative source work
+    before each step (and after the last)."""
+
+    step0: int
+    m: int
+    sample: np.ndarray
+    ebar: np.ndarray
+    flat: np.ndarray
+    J: np.ndarray
+    work_before: np.ndarray
+
+
+def advance_block_1d(solver, m: int, pre) -> None:
+    """Advance ``solver`` by ``m`` steps with the sources' block currents ``pre``."""
+    s = solver
+    flat = np.ascontiguousarray(np.concatenate([f for cur in pre for _c, f, _j in cur], axis=1))
+    J = np.ascontiguousarray(np.concatenate([j for cur in pre for _c, _f, j in cur], axis=1))
+    sample = np.zeros(m, dtype=np.bool_)
+    for obs in s.observers:
+        sample |= obs.block_samples(s, m)
+    nx = s.grid.shape[0]
+    ebar = np.empty((int(sample.sum()), nx))
+    work = np.empty(m)
+    flux = np.empty(m)
+    if s.ledger is not None and s.ledger._flux:
+        (_ec, _hc, fe, fh, fw), = s.ledger._flux
+    else:
+        fe = fh = np.zeros(0, np.int64)
+        fw = np.zeros(0)
+    Py, Pyo = s.polarization["Ey"]
+    f, psi = s.fields, s.psi
+    nl_flow = np.zeros(m)
+    advance_1d(m, f["Ey"], f["Hz"], Py, Pyo, s._segs["Ey"], s._coef, s._prof[0], psi["hz_x"], psi["ey_x"],
+               s._tally, s.bath_rows[0], s._gid, s._bathc, s._tally_boxes["Ey"], *s._scratch_1d,
+               flat, J, s.dt, s.tables["inv_eps"], s._flat_mix["Ey"], s.grid.cell_volume,
+               fe, fh, fw, sample, ebar, work, flux, nl_flow, _nonlocal_args(s))
+    step0 = s.step_count
+    before = np.empty(m + 1)
+    for k in range(m):                      # the same sequence of sums as step by step
+        before[k] = s.source_work
+        s.source_work += work[k]
+        s.injected_abs += abs(work[k])
+        s.nonlocal_outflow += nl_flow[k]
+        if s.ledger is not None:
+            s.ledger.outflow += nl_flow[k]
+            s.ledger.source_work += work[k]
+            s.ledger.outflow += flux[k]
+    before[m] = s.source_work
+    s.step_count += m
+    block = Block(step0, m, sample, ebar, flat, J, before)
+    for obs in s.observers:
+        obs.after_block(s, block)
+
+
+def _nonlocal_args(s) -> tuple:
+    """The one nonlocal pole slot of a 1D solver as the compiled loop takes it (or 'off'
+    with placeholder arrays of the same types)."""
+    t = s.tables
+    entries = s.nonlocal_entries.get("Ey", [])
+    if entries:
+        slot, mix2, rows, Q, Pold, diag = entries[0]
+        return (True, slot, mix2, t["nlg"], t["c4"], diag, s.nonlocal_inv_h2, s.nonlocal_periodic, rows, Q, Pold,
+                s._bathc_all, s.bath_rows, t["kappa"])
+    z2 = np.zeros((1, 1))
+    mix2 = np.ascontiguousarray(s.model.mix_maps["Ey"].reshape(1, -1))
+    return (False, 0, mix2, t["nlg"], t["c4"], z2, (0.0, 0.0), (True, True), (0, 0), z2, z2, s._bathc_all,
+            s.bath_rows, t["kappa"])

@@ -1,0 +1,74 @@
+"""Several 1D steps in one compiled call: Yee + ADE update, source injection, its work,
+the ledger's face flux, and the mean field E-bar of the steps an observer samples.
+
+A 1D step is about a microsecond of arithmetic for a few hundred cells; called once per
+step from Python it costs several times that in call overhead alone, and the source,
+ledger and recorder work around it much more.  This loop keeps all of it compiled.
+Plain arrays in, accumulators out; real fields only.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from numba import njit
+
+from fdtd.solver.kernels.options import SERIAL
+from fdtd.solver.kernels.nonlocal_pole import postpass, prepass_serial
+from fdtd.solver.kernels.yee1d import step_1d
+
+
+@njit(**SERIAL)
+def advance_1d(m, Ey, Hz, Py, Pyo, seg, coef, prof_x, psi_hz_x, psi_ey_x, tally, bath_row, gid, bathc,
+               box, curl, dsum, flat, J, dt, inv_eps, mix_flat, dV, face_e, face_h, face_w, sample,
+               ebar, work, flux, nonlocal_flow, nonlocal_pole):
+    """Advance ``m`` steps.
+
+    ``flat``, ``J`` (m, w): source nodes and current of each step; ``face_e``, ``face_h``,
+    ``face_w`` (q,): E and H nodes and weights of the ledger's faces (q = 0: no ledger);
+    ``sample`` (m,) bool: steps whose E-bar = (E^n + E^{n+1})/2 goes into the next row of
+    ``ebar`` (n_sampled, n).  Writes ``work`` (m,) (the sources' work of each step) and
+    ``flux`` (m,) (dt times the outward flux of each step) and ``nonlocal_flow`` (m,) (the
+    energy that leaves the ledger box through a nonlocal pole's polarization gradient).
+
+    ``nonlocal_pole``: (on, slot, mix2, nlg, c4, diag, inv_h2, periodic, rows, Q, Pold,
+    bathc_all, bath_rows2, kappa) of at most one nonlocal pole slot
+    (fdtd/solver/kernels/nonlocal_pole.py; ``on`` False: none)."""
+    (nl_on, nl_s, nl_mix, nl_g, nl_c4, nl_diag, nl_h2, nl_per, nl_rows, nl_Q, nl_Pold, nl_bathc,
+     nl_bath, nl_kappa) = nonlocal_pole
+    E2 = Ey.reshape((1, Ey.shape[0]))
+    w = flat.shape[1]
+    q = face_e.shape[0]
+    e0 = np.empty(w)
+    f0 = np.empty(q)
+    row = 0
+    for s in range(m):
+        for k in range(w):
+            e0[k] = Ey[flat[s, k]]
+        for k in range(q):
+            f0[k] = Ey[face_e[k]]
+        if sample[s]:
+            ebar[row, :] = Ey
+        if nl_on:
+            prepass_serial(Py, Pyo, nl_s, nl_mix, nl_g, nl_c4, nl_diag, nl_h2, nl_per, nl_rows, nl_Q, nl_Pold)
+        step_1d(Ey, Hz, Py, Pyo, seg, coef, prof_x, psi_hz_x, psi_ey_x, tally, bath_row, gid, bathc,
+                box, 1.0, curl, dsum)
+        nl_out = 0.0
+        if nl_on:
+            nl_out = postpass(Py, Pyo, E2, nl_s, nl_mix, nl_g, inv_eps, nl_Q, nl_Pold, nl_rows, tally, box,
+                              nl_bathc, gid, nl_bath, nl_kappa, nl_h2, nl_per)
+        for k in range(w):
+            i = flat[s, k]
+            Ey[i] -= dt * J[s, k] * inv_eps[mix_flat[i]]
+        acc = 0.0
+        for k in range(w):
+            acc += J[s, k] * (0.5 * (e0[k] + Ey[flat[s, k]]))
+        work[s] = -dt * acc * dV
+        acc = 0.0
+        for k in range(q):
+            acc += face_w[k] * (0.5 * (f0[k] + Ey[face_e[k]])) * Hz[face_h[k]]
+        flux[s] = dt * acc
+        nonlocal_flow[s] = nl_out * dV
+        if sample[s]:
+            for i in range(Ey.shape[0]):
+                ebar[row, i] = 0.5 * (ebar[row, i] + Ey[i])
+            row += 1
