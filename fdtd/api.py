@@ -35,9 +35,15 @@ def open_results(path, point: int | None = None) -> Results:
 
 @dataclass
 class CheckReport:
+    """What ``gapwake check`` says of one point: printable rows, warnings and notes, and the
+    estimated run time in seconds (``seconds``: the typical run; ``seconds_max``: with every
+    window run.max_time allows and the automatic grid refinement)."""
+
     rows: list = field(default_factory=list)
     warnings: list = field(default_factory=list)
     notes: list = field(default_factory=list)
+    seconds: float = float("nan")
+    seconds_max: float = float("nan")
 
     @property
     def text(self) -> str:
@@ -83,6 +89,7 @@ def check(scenario: Scenario) -> list[CheckReport]:
             extra += 2.6 * min(10, p.isolated_max_runs)
             extra_max += 2.6 * min(10, p.isolated_max_runs)
         t_typ, t_max = extra * t_one, extra_max * t_one_max
+        rep.seconds, rep.seconds_max = t_typ, t_max
         if p.kind == "comoving":
             left = (p.max_time - p.switch_on) / (p.transits * p.transit)
             if left < 2:

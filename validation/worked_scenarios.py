@@ -99,15 +99,26 @@ class Reused:
                 self.points.append(r.summary)
 
 
+#: (scenario, estimated s, at most s, measured s) of every file run: `gapwake check`'s time
+#: estimate against the run it estimates (goal: within a factor ESTIMATE_FACTOR)
+ESTIMATES: list = []
+ESTIMATE_FACTOR = 1.5
+
+
 def run_file(path: Path, reuse: Path | None):
     sc = fdtd.load(path)
     if reuse is not None:
         return sc, Reused(reuse / f"{path.stem}.h5"), float("nan")
+    reports = fdtd.check(sc)
+    est = sum(r.seconds for r in reports)
+    est_max = sum(r.seconds_max for r in reports)
     t0 = time.perf_counter()
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         out = fdtd.run(sc, scratch() / f"{path.stem}.h5", progress=False)
-    return sc, out, time.perf_counter() - t0
+    seconds = time.perf_counter() - t0
+    ESTIMATES.append((path.name, est, est_max, seconds))
+    return sc, out, seconds
 
 
 def fig(point: dict, name: str, key: str = "normalized"):
@@ -388,6 +399,21 @@ def main() -> int:
         print(f"  {name}: {seconds:.0f} s, {len(c.failed)} claim(s) not holding", flush=True)
     rep.section("Summary")
     rep.table(["scenario", "run time", "claims holding"], summary)
+    if ESTIMATES:
+        rep.section("`gapwake check`'s run-time estimates against the runs")
+        rep.para(f"The estimate (`fdtd.check`, the same as `gapwake check`) is made just before each run, "
+                 f"from the step counts of the plan and a step cost measured on the cell itself; goal: "
+                 f"within a factor {ESTIMATE_FACTOR} of the measured run time.")
+        rows = []
+        for name, est, est_max, seconds in ESTIMATES:
+            ratio = seconds / est
+            ok = 1 / ESTIMATE_FACTOR <= ratio <= ESTIMATE_FACTOR
+            rows.append((name, f"{est:.0f} s", f"{est_max:.0f} s", f"{seconds:.0f} s", f"{ratio:.2f}",
+                         "yes" if ok else "**no**"))
+            if not ok:
+                failures.append((name, f"check estimate within {ESTIMATE_FACTOR}x of the run time",
+                                 f"estimated {est:.0f} s, measured {seconds:.0f} s"))
+        rep.table(["scenario", "estimate", "at most", "measured", "measured / estimate", "within"], rows)
     if failures:
         rep.para("Claims that do not hold (the scenario files are left as they are):")
         rep.table(["scenario", "claim", "measured"], failures)

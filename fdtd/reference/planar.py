@@ -264,17 +264,21 @@ class PlanarReference:
         ``what`` = "power", "up" or "down" (flux leaving upward / downward).
         Points with omega <= 0 give zero.
         """
+        return self.densities(k, branch)[("power", "up", "down").index(what)]
+
+    def densities(self, k, branch: int):
+        """(power, flux up, flux down) spectral densities on one branch, from one
+        evaluation of the sheet solution (see :meth:`density`); each of shape k.shape."""
         k = np.asarray(k, dtype=float)
         w = self.omega_of(k, branch)
-        out = np.zeros(k.shape)
+        out = np.zeros((3,) + k.shape)
         ok = w > 0
         if np.any(ok):
-            P, up, dn = sheet_power(self.stack, self.source, k[ok], w[ok])
-            val = {"power": P, "up": up, "down": dn}[what]
+            vals = np.array(sheet_power(self.stack, self.source, k[ok], w[ok]))
             if self.source.kind == "charge":
-                val = 4.0 * val
+                vals = 4.0 * vals
             if self.form_factor is not None:
-                val = val * np.abs(self.form_factor(k[ok])) ** 2
+                vals = vals * np.abs(self.form_factor(k[ok])) ** 2
             if self.vertical_form_factor is not None:
                 med = self.stack.media[self.src_region]
                 ky = ky_branch(permittivity(med, w[ok]), w[ok], k[ok])
@@ -282,8 +286,8 @@ class PlanarReference:
                 # nothing (a lossless medium): there the density is zero
                 with np.errstate(over="ignore", invalid="ignore"):
                     ff2 = np.real(self.vertical_form_factor(ky) ** 2)
-                    val = np.where(val == 0, 0.0, val * ff2)
-            out[ok] = val
+                    vals = np.where(vals == 0, 0.0, vals * ff2)
+            out[:, ok] = vals
         return out
 
     def _k_range(self, branch: int) -> tuple[float, float]:
@@ -371,9 +375,7 @@ class PlanarReference:
 
         def f(x):
             w = self.omega_of(x, branch)
-            P = self.density(x, branch, "power")
-            up = self.density(x, branch, "up")
-            dn = self.density(x, branch, "down")
+            P, up, dn = self.densities(x, branch)
             with np.errstate(divide="ignore", invalid="ignore"):
                 kw = np.where(w > 0, x / np.where(w > 0, w, 1.0), 0.0)
                 iw = np.where(w > 0, branch * s.internal_frequency / np.where(w > 0, w, 1.0), 0.0)

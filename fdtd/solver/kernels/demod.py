@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 from numba import njit
 
-from fdtd.solver.kernels.options import SERIAL
+from fdtd.solver.kernels.options import SERIAL, SERIAL_FAST
 
 
 @njit(**SERIAL)
@@ -103,7 +103,7 @@ def accumulate_half(A, B, Jhat, Epos, src_index, conj_flag, phase, weights):
                         Br[m] += p * np.conj(Er[src_index[m]])
 
 
-@njit(**SERIAL)
+@njit(**SERIAL_FAST)
 def sparse_dft_block(Jhat, flat, J, table):
     """Jhat[s, m] = sum_k J[s, k] table[flat[s, k], m] (one recorded row, all sampled steps)."""
     ns, nm = Jhat.shape
@@ -119,7 +119,7 @@ def sparse_dft_block(Jhat, flat, J, table):
                 Jhat[s, m] += v * row[m]
 
 
-@njit(**SERIAL)
+@njit(**SERIAL_FAST)
 def accumulate_half_block(A, B, Jhat, Epos, src_index, conj_flag, phase0, rot, gaps, weights):
     """:func:`accumulate_half` for the sampled steps of a block (one component, one row).
 
@@ -162,3 +162,21 @@ def accumulate_half_block(A, B, Jhat, Epos, src_index, conj_flag, phase0, rot, g
                 for m in range(nm):
                     Ar[m] += ww * tj[m]
                     Br[m] += ww * te[m]
+
+
+@njit(**SERIAL)
+def rows_transposed(E, rows, out):
+    """out[r, i] = E[i, rows[r]]: the recorded rows of a 2D field, contiguous along x."""
+    for r in range(rows.shape[0]):
+        j = rows[r]
+        for i in range(E.shape[0]):
+            out[r, i] = E[i, j]
+
+
+@njit(**SERIAL)
+def mean_rows_transposed(E, rows, e0, out):
+    """out[r, i] = (e0[r, i] + E[i, rows[r]]) / 2: E-bar of a step on the recorded rows."""
+    for r in range(rows.shape[0]):
+        j = rows[r]
+        for i in range(E.shape[0]):
+            out[r, i] = 0.5 * (e0[r, i] + E[i, j])

@@ -9,3 +9,7 @@ arguments (a kernel that calls ``numba.get_num_threads()`` cannot be cached).
 
 SERIAL = dict(cache=True, nogil=True, error_model="numpy")
 PARALLEL = dict(cache=True, nogil=True, error_model="numpy", parallel=True)
+#: the Doppler accumulations over blocks of steps: sums of complex products of finite
+#: numbers, where reassociation only moves round-off and LLVM then vectorizes the complex
+#: arithmetic (measured 1.7x on the 1D block accumulation)
+SERIAL_FAST = dict(cache=True, nogil=True, error_model="numpy", fastmath=True)
