@@ -117,7 +117,7 @@ def refined_plan(p: Plan) -> Plan:
 
 
 def compare_grids(p: Plan, fine_spectrum, coarse_nx: int, coarse_spectrum, floor: float = 0.0,
-                  previous: dict | None = None) -> dict:
+                  previous: dict | None = None, zero_level: float = 0.0) -> dict:
     """Estimated discretization errors of the fine run from a run on a grid FACTOR times
     coarser (``coarse_nx`` cells along x): {"errors", "coarse", "relative"}; "relative" is
     the largest error of the total and of each branch carrying at least
@@ -153,18 +153,19 @@ def compare_grids(p: Plan, fine_spectrum, coarse_nx: int, coarse_spectrum, floor
             if k in ("total", "normal", "anomalous"):
                 order = min(order, float(obs))
     return {"errors": errors, "coarse": c, "differences": diff, "order": order,
-            "relative": relative_grid_error(p, fine_spectrum, errors, floor)}
+            "relative": relative_grid_error(p, fine_spectrum, errors, floor, zero_level)}
 
 
-def relative_grid_error(p: Plan, spec, errors: dict, floor: float = 0.0) -> float:
+def relative_grid_error(p: Plan, spec, errors: dict, floor: float = 0.0, zero_level: float = 0.0) -> float:
     """Largest relative grid error of the total and of the branches that matter (see
-    :func:`compare_grids`)."""
+    :func:`compare_grids`); 0 where the total, grid error included, stays below
+    ``zero_level`` (it is zero on both grids: fdtd.recording.steady.at_zero)."""
     if not errors:
         return float("nan")
     total = abs(float(spec.total))
     if max(total, floor) == 0:
         return 0.0
-    if total + errors["total"] <= floor:      # zero within the zero level, grid error included
+    if zero_level > 0 and total + errors["total"] <= zero_level:
         return 0.0
     rel = errors["total"] / max(total, floor)
     if p.source_kind == "dipole":
@@ -175,7 +176,7 @@ def relative_grid_error(p: Plan, spec, errors: dict, floor: float = 0.0) -> floa
     return float(rel)
 
 
-def run_grid_check(p: Plan, fine_spectrum, progress=False, floor: float = 0.0) -> dict:
+def run_grid_check(p: Plan, fine_spectrum, progress=False, floor: float = 0.0, zero_level: float = 0.0) -> dict:
     """Run the companion and return {"errors": figure -> estimated grid error,
     "coarse": figure -> coarse value, "relative": largest relative error (see
     :func:`compare_grids`), "steady": bool or None, "note": str}."""
@@ -194,6 +195,6 @@ def run_grid_check(p: Plan, fine_spectrum, progress=False, floor: float = 0.0) -
     if coarse is None:
         return {"errors": {}, "coarse": {}, "relative": float("nan"), "steady": None,
                 "note": "the coarse run recorded nothing"}
-    out = compare_grids(p, fine_spectrum, cp.nx, coarse, floor)
+    out = compare_grids(p, fine_spectrum, cp.nx, coarse, floor, zero_level=zero_level)
     out.update(steady=exp.state.get("steady"), note="")
     return out

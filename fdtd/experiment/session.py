@@ -210,7 +210,7 @@ def _grid_checked(exp: Experiment, group, progress):
     from fdtd.experiment.grid_check import compare_grids, refined_plan, run_grid_check
 
     p = exp.plan
-    grid = run_grid_check(p, exp.last_spectrum, progress=progress, floor=exp.zero_power)
+    grid = run_grid_check(p, exp.last_spectrum, progress=progress, floor=exp.zero_power, zero_level=exp.zero_level)
     for _ in range(p.grid_refinements):
         rel = grid.get("relative", float("nan"))
         if not rel > p.grid_tol:          # within tolerance (or no estimate): done
@@ -234,7 +234,8 @@ def _grid_checked(exp: Experiment, group, progress):
         r.adjustments.append(f"grid refined automatically: cell {p.cell * p.ell:.4g} m -> {r.cell * r.ell:.4g} m "
                              f"(the estimated discretization error on the first grid was {100 * rel:.2g} %, "
                              f"above run.grid_tolerance = {100 * p.grid_tol:.2g} %)")
-        grid = compare_grids(r, fine.last_spectrum, p.nx, exp.last_spectrum, floor=fine.zero_power, previous=grid)
+        grid = compare_grids(r, fine.last_spectrum, p.nx, exp.last_spectrum, floor=fine.zero_power, previous=grid,
+                             zero_level=fine.zero_level)
         grid.update(steady=exp.state.get("steady"), note="")
         exp, p = fine, r
     return exp, grid, "completed"

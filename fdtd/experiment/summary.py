@@ -104,6 +104,8 @@ def summarise(exp, status: str, grid: dict | None = None, isolated: dict | None 
         drift = exp.state.get("time_errors") or {}
         grid_errors = (grid or {}).get("errors") or {}
 
+        at_zero_figures: set = set()
+
         def error(attr):
             # time: the larger of the drift between windows and the spread within the last one
             # (and, for the total, the work not on the recorded Doppler points); grid: the
@@ -111,6 +113,10 @@ def summarise(exp, status: str, grid: dict | None = None, isolated: dict | None 
             e = spec.error(attr)
             d = drift.get(attr)
             e_time = max(e, d) if d is not None else e
+            if attr in ("total", "normal", "anomalous") and at_zero(getattr(spec, attr), e_time, exp.zero_level):
+                # settled at the zero level (fdtd.recording.steady.at_zero): zero within that level
+                e_time = exp.zero_level
+                at_zero_figures.add(attr)
             return math.hypot(e_time, grid_errors.get(attr, 0.0))
 
         for name, attr, q in (("total_power", "total", "power"), ("normal_power", "normal", "power"),
@@ -124,10 +130,10 @@ def summarise(exp, status: str, grid: dict | None = None, isolated: dict | None 
             else:
                 err = error(attr)
             F.fig(name, getattr(spec, attr), q, err)
-            if attr == "total" and at_zero(spec.total, err, exp.zero_power):
+            if attr == "total" and "total" in at_zero_figures:
                 p.notes.append(f"the total power is zero to within the zero level "
-                               f"{exp.zero_power * p.units.power:.3g} {si_of(p.units, 'power')[0]} (error "
-                               "included): below it a power counts as zero (fdtd.recording.steady)")
+                               f"{exp.zero_level * p.units.power:.3g} {si_of(p.units, 'power')[0]}, its error bar: "
+                               "below that level a power counts as zero (fdtd.recording.steady)")
         F.fig("unresolved_power", spec.unresolved, "power")
         if grid is not None:
             _grid_figures(p, spec, grid, F)

@@ -74,12 +74,13 @@ def at_zero(value: float, error: float, zero: float) -> bool:
     return zero > 0 and abs(value) + error <= zero
 
 
-def window_convergence(history: list[dict], tol: float, zero: float, figures=DIPOLE_FIGURES):
+def window_convergence(history: list[dict], tol: float, zero: float, figures=DIPOLE_FIGURES,
+                       zero_level: float | None = None):
     """(steady, time_errors) from the figures of successive windows.
 
     A figure has settled when its remaining drift is below ``tol`` times its size (or the
-    total's share, or ``zero``), or when value and drift together stay below ``zero``
-    (:func:`at_zero`).
+    total's share, or ``zero``), or when value and drift together stay below ``zero_level``
+    (:func:`at_zero`; default ``zero``, 0 turns it off).
 
     ``history`` is a list (oldest first) of dicts figure -> value (normalized units);
     ``zero`` the power below which a figure counts as zero (ZERO_DIPOLE, ZERO_CHARGE).
@@ -97,7 +98,7 @@ def window_convergence(history: list[dict], tol: float, zero: float, figures=DIP
         if f not in TESTED:
             continue
         ref = max(total, zero) if f == "total" else max(abs(last[f]), SHARE_OF_TOTAL * total, zero)
-        if err > tol * ref and not at_zero(last[f], err, zero):
+        if err > tol * ref and not at_zero(last[f], err, zero if zero_level is None else zero_level):
             steady = False
     return steady, errors
 
