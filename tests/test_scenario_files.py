@@ -523,7 +523,8 @@ def test_interrupt_keeps_partial_results(tmp_path):
     try:
         _wait_for(proc, "window 1")
         proc.send_signal(signal.SIGINT)
-        proc.wait(timeout=180)
+        # drain both pipes while waiting: a child blocked on a full pipe cannot finish writing
+        proc.communicate(timeout=180)
     finally:
         if proc.poll() is None:
             proc.kill()
