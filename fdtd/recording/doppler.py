@@ -340,8 +340,11 @@ class DopplerWorkRecorder(_Checkpointable):
 
     def block_samples(self, solver, m: int) -> np.ndarray:
         """Which of the next ``m`` steps this recorder samples (the test of :meth:`before_step`)."""
-        n = solver.step_count + np.arange(m)
-        t_half = (n + 0.5) * solver.dt
+        return self._sampled(solver.step_count, m)
+
+    def _sampled(self, step0: int, m: int) -> np.ndarray:
+        n = step0 + np.arange(m)
+        t_half = (n + 0.5) * self.solver.dt
         ok = (t_half >= self.start) & ((n - self._anchor) % self.every == 0)
         if self.duration is not None:
             ok &= t_half <= self.start + self.duration
@@ -349,7 +352,7 @@ class DopplerWorkRecorder(_Checkpointable):
 
     def after_block(self, solver, block) -> None:
         """Demodulate the sampled steps of a block (:class:`fdtd.solver.block1d.Block`)."""
-        mine = self.block_samples_at(block)
+        mine = self._sampled(block.step0, block.m)
         if not mine.any():
             return
         dt = solver.dt
@@ -385,14 +388,6 @@ class DopplerWorkRecorder(_Checkpointable):
         self.work_last = block.work_before[idx[-1] + 1]
         self.weighted_work += float(np.sum(w0 * (block.work_before[idx + 1] - block.work_before[idx])))
         self.weighted_time += float(w0.sum()) * dt
-
-    def block_samples_at(self, block) -> np.ndarray:
-        n = block.step0 + np.arange(block.m)
-        t_half = (n + 0.5) * self.solver.dt
-        ok = (t_half >= self.start) & ((n - self._anchor) % self.every == 0)
-        if self.duration is not None:
-            ok &= t_half <= self.start + self.duration
-        return ok
 
     def after_step(self, solver, injections) -> None:
         if self._e0 is None:
