@@ -190,7 +190,8 @@ def run_grid_check(p: Plan, fine_spectrum, progress=False, floor: float = 0.0, z
     log.info("  grid check: the same point on a grid twice as coarse (%d cells along x)", cp.nx)
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", SteadyStateWarning)
-        exp.execute()
+        if exp.execute() == "interrupted":     # the user's stop ends the whole point
+            raise KeyboardInterrupt
     coarse = exp.last_spectrum
     if coarse is None:
         return {"errors": {}, "coarse": {}, "relative": float("nan"), "steady": None,

@@ -65,7 +65,8 @@ def _run_node(p, theta: float, progress) -> tuple[dict, dict]:
     exp = Experiment(_phased_plan(p, theta), progress=progress, records=False)
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", SteadyStateWarning)
-        exp.execute()
+        if exp.execute() == "interrupted":     # the user's stop ends the whole point
+            raise KeyboardInterrupt
     if exp.last_spectrum is None:
         raise RuntimeError("a phased run recorded nothing")
     info = {"steady": exp.state.get("steady"), "steps": exp.solver.step_count,

@@ -30,6 +30,7 @@ import warnings
 
 from fdtd._progress import progress_bar
 from fdtd.errors import GapwakeError
+from fdtd.experiment import stopping
 from fdtd.experiment.build import build
 from fdtd.recording.doppler import DopplerFluxRecorder, DopplerWorkRecorder, auto_sampling
 from fdtd.recording.line import FieldLineRecorder
@@ -294,6 +295,7 @@ class Experiment:
         bar.update(s.step_count)
         try:
             while st["phase"] != "done":
+                stopping.check()           # a Ctrl-C or SIGTERM received during the last block
                 if stop_after_steps is not None and s.step_count >= stop_after_steps:
                     return "stopped"
                 bar.set_description(st["phase"], refresh=False)

@@ -12,12 +12,12 @@ from __future__ import annotations
 
 import json
 import logging
-import signal
 from dataclasses import dataclass
 from pathlib import Path
 
 from fdtd.experiment.procedure import Experiment
 from fdtd.experiment.resources import ResourceError, guard
+from fdtd.experiment.stopping import deferred_stops
 from fdtd.experiment.summary import summarise
 from fdtd.io import results as R
 from fdtd.io.results import write_point
@@ -105,16 +105,7 @@ def run_scenario(scenario: Scenario, out=None, progress: bool | None = None, che
                                      f"were written when it ended (point {start} of {len(planned)})")
     status, reason = "complete", "completed"
     summaries = []
-    old_handler = None
-
-    def on_term(signum, frame):    # SIGTERM: stop like Ctrl-C, keep what was measured
-        raise KeyboardInterrupt
-
-    try:
-        old_handler = signal.signal(signal.SIGTERM, on_term)
-    except ValueError:   # not in the main thread
-        pass
-    try:
+    with deferred_stops():
         writer = R.AtomicResults(out)
         with writer as f:
             try:
@@ -124,9 +115,6 @@ def run_scenario(scenario: Scenario, out=None, progress: bool | None = None, che
                 status, reason = "partial", "interrupted while writing the results"
             # the rename is the last act: a killed run never leaves a file that looks complete
             writer.commit(status, reason)
-    finally:
-        if old_handler is not None:
-            signal.signal(signal.SIGTERM, old_handler)
     return SessionResult(str(out), status, reason, summaries)
 
 
@@ -162,17 +150,21 @@ def _run_points(f, scenario, planned, progress, checkpoint, resume, start, fresh
             CK.load_checkpoint(resume, exp)
             log.info("  resumed from %s at step %d (%s)", resume, exp.solver.step_count, exp.state["phase"])
         why = exp.execute()
-        grid = None
-        if why == "completed" and p.grid_check and p.kind == "comoving":
-            exp, grid, why = _grid_checked(exp, group, progress)
-            p = exp.plan
-        steady = exp.state.get("steady")
-        isolated = None
-        if why == "completed" and p.isolated and p.kind == "comoving" and exp.last_spectrum is not None:
-            from fdtd.experiment.isolated import isolated_emitter
+        grid = isolated = None
+        try:
+            if why == "completed" and p.grid_check and p.kind == "comoving":
+                exp, grid, why = _grid_checked(exp, group, progress)
+                p = exp.plan
+            if why == "completed" and p.isolated and p.kind == "comoving" and exp.last_spectrum is not None:
+                from fdtd.experiment.isolated import isolated_emitter
 
-            isolated = isolated_emitter(p, exp.last_spectrum, p.isolated_tol, p.isolated_max_runs,
-                                        progress=progress)
+                isolated = isolated_emitter(p, exp.last_spectrum, p.isolated_tol, p.isolated_max_runs,
+                                            progress=progress)
+        except KeyboardInterrupt:      # during a companion run: the point's own figures are kept
+            why = "interrupted"
+            p.notes.append("interrupted during the grid check or the isolated-emitter runs: the figures are "
+                           "those of the point's own run, without that check")
+        steady = exp.state.get("steady")
         grid_bad = grid is not None and grid.get("relative", 0.0) > p.grid_tol
         if why == "interrupted":
             st = "partial"
