@@ -31,8 +31,8 @@ from fdtd.solver.kernels import energy as ek
 from fdtd.solver.kernels import inject as injk
 from fdtd.solver.kernels import nonlocal_pole as nlk
 from fdtd.solver.kernels.yee1d import step_1d
-from fdtd.solver.kernels.yee_te import step_te
-from fdtd.solver.kernels.yee_tm import step_tm
+from fdtd.solver.kernels.yee_te import step_te, step_te_blocked
+from fdtd.solver.kernels.yee_tm import step_tm, step_tm_blocked
 from fdtd.solver.ledger import EnergyLedger
 from fdtd.space.model import Model
 from fdtd._progress import progress_bar
@@ -187,6 +187,9 @@ class Solver:
         self._energy0: float | None = None
         self.stop_reason = ""
         self.observers: list = []   # objects with before_step(solver) / after_step(solver, injections)
+        #: steps per sweep of the temporally blocked 2D kernel: None chooses (see
+        #: :meth:`temporal_levels_now`), 0 or 1 never blocks, L >= 2 blocks whenever allowed
+        self.temporal_levels: int | None = None
 
     # ------------------------------------------------------------------
     @property
@@ -341,8 +344,50 @@ class Solver:
                     psi["hz_x"], psi["ey_x"], t, self.bath_rows[0], self._gid, self._bathc,
                     self._tally_boxes["Ey"], ph, *self._scratch_1d)
 
+    def _blocked_kernel(self, levels: int) -> None:
+        f, psi, ph = self.fields, self.psi, self.wrap_phase
+        _use_threads(self.threads)
+        if self.grid.polarization == "te":
+            Px, Pxo = self.polarization["Ex"]
+            Py, Pyo = self.polarization["Ey"]
+            step_te_blocked(f["Ex"], f["Ey"], f["Hz"], Px, Pxo, Py, Pyo, self._segs["Ex"], self._segs["Ey"],
+                            self._coef, self._prof[0], self._prof[1], psi["hz_x"], psi["ey_x"], psi["hz_y"],
+                            psi["ex_y"], self.threads, levels, self._tally, self.bath_rows, self._gid,
+                            self._bathc, self._tally_boxes["Ex"], self._tally_boxes["Ey"], ph)
+        else:
+            Pz, Pzo = self.polarization["Ez"]
+            step_tm_blocked(f["Ez"], f["Hx"], f["Hy"], Pz, Pzo, self._segs["Ez"], self._coef, self._prof[0],
+                            self._prof[1], psi["hy_x"], psi["ez_x"], psi["hx_y"], psi["ez_y"], self.threads,
+                            levels, self._tally, self.bath_rows, self._gid, self._bathc,
+                            self._tally_boxes["Ez"], ph)
+
     #: steps whose source currents are evaluated together (bounded scratch memory)
     BLOCK = 256
+    #: steps per sweep of the temporally blocked 2D kernel when chosen automatically, and
+    #: the grid size from which it pays (below it the fields stay in cache anyway);
+    #: measured with benchmarks/bench_temporal.py
+    TEMPORAL_LEVELS = 4
+    TEMPORAL_MIN_CELLS = 1 << 20
+
+    def temporal_levels_now(self) -> int:
+        """Steps per sweep the next :meth:`step` call would use (1: one step per sweep).
+
+        Temporal blocking advances several steps per sweep over the rows and is
+        bit-identical to stepping one at a time (docs/theory/temporal-blocking.md).  It
+        needs a step that is the kernel alone: a 2D grid without sources, observers,
+        energy ledger (whose face flux is taken between steps) or nonlocal poles, and row
+        blocks of at least 2 L + 2 rows.  By default it is used from
+        :attr:`TEMPORAL_MIN_CELLS` cells on."""
+        g = self.grid
+        want = self.temporal_levels
+        if want is None:
+            want = self.TEMPORAL_LEVELS if g.n_cells >= self.TEMPORAL_MIN_CELLS else 1
+        if want < 2 or g.dims != 2 or self.sources or self.observers or self.ledger is not None \
+                or self.nonlocal_entries:
+            return 1
+        if g.shape[0] // self.threads < 2 * want + 2:
+            return 1
+        return int(want)
 
     def step(self, n: int = 1) -> None:
         """Advance ``n`` steps (no guard rails; see :meth:`run`).
@@ -351,6 +396,13 @@ class Solver:
         currents of up to :attr:`BLOCK` steps at once; injection and work then run in
         compiled code (real fields), and a 1D run whose observers all accept blocks
         advances the whole block in one compiled call (:mod:`fdtd.solver.block1d`)."""
+        levels = self.temporal_levels_now() if n > 1 else 1
+        if levels > 1 and n >= levels:
+            sweeps = n // levels
+            for _ in range(sweeps):
+                self._blocked_kernel(levels)
+                self.step_count += levels
+            n -= sweeps * levels
         done = 0
         while done < n:
             m = min(self.BLOCK, n - done)

@@ -171,3 +171,43 @@ def step_te(Ex, Ey, Hz, Px, Pxo, Py, Pyo, seg_x, seg_y, coef, prof_x, prof_y,
             _e_rows(i, Ex, Ey, Hz, Px, Pxo, Py, Pyo, seg_x, seg_y, coef, prof_x, prof_y,
                     psi_ex_y, psi_ey_x, curl, dsum, tally, bath_rows[i], gid, bathc, box_x, box_y,
                     wrap_phase)
+
+
+
+@njit(**PARALLEL)
+def step_te_blocked(Ex, Ey, Hz, Px, Pxo, Py, Pyo, seg_x, seg_y, coef, prof_x, prof_y,
+                    psi_hz_x, psi_ey_x, psi_hz_y, psi_ex_y, nchunks, levels, tally, bath_rows, gid,
+                    bathc, box_x, box_y, wrap_phase):
+    """Advance by ``levels`` steps in two sweeps (temporal blocking), bit-identical to
+    ``levels`` calls of :func:`step_te`.  Schedule (docs/theory/temporal-blocking.md):
+    each row block advances its interior as a wavefront, level s on row r - s + 1 (a
+    trapezoid shrinking by one row per level at both ends); then the V-shaped gaps
+    around the block boundaries (the x wrap included) are filled level by level.
+    Each of the ``nchunks`` row blocks must hold at least 2 * levels + 2 rows."""
+    nx, ny = Hz.shape
+    for k in prange(nchunks):
+        a = k * nx // nchunks
+        b = (k + 1) * nx // nchunks
+        curl = np.empty_like(Hz[0])
+        dsum = np.empty_like(Hz[0])
+        for r in range(a, b + levels - 1):
+            for s in range(1, levels + 1):
+                i = r - s + 1
+                if i >= a + s - 1 and i < b - s:
+                    _h_row(i, Ex, Ey, Hz, prof_x, prof_y, psi_hz_x, psi_hz_y, wrap_phase)
+                    if i >= a + s:
+                        _e_rows(i, Ex, Ey, Hz, Px, Pxo, Py, Pyo, seg_x, seg_y, coef, prof_x, prof_y,
+                                psi_ex_y, psi_ey_x, curl, dsum, tally, bath_rows[i], gid, bathc,
+                                box_x, box_y, wrap_phase)
+    for k in prange(nchunks):
+        bnd = k * nx // nchunks
+        curl = np.empty_like(Hz[0])
+        dsum = np.empty_like(Hz[0])
+        for s in range(1, levels + 1):
+            for q in range(-s, s):
+                i = (bnd + q + nx) % nx
+                if q < s - 1:
+                    _h_row(i, Ex, Ey, Hz, prof_x, prof_y, psi_hz_x, psi_hz_y, wrap_phase)
+                _e_rows(i, Ex, Ey, Hz, Px, Pxo, Py, Pyo, seg_x, seg_y, coef, prof_x, prof_y,
+                        psi_ex_y, psi_ey_x, curl, dsum, tally, bath_rows[i], gid, bathc,
+                        box_x, box_y, wrap_phase)

@@ -140,3 +140,35 @@ def step_tm(Ez, Hx, Hy, Pz, Pzo, seg, coef, prof_x, prof_y, psi_hy_x, psi_ez_x, 
                 _h_row(i, Ez, Hx, Hy, prof_x, prof_y, psi_hy_x, psi_hx_y, wrap_phase)
             _e_row(i, Ez, Hx, Hy, Pz, Pzo, seg, coef, prof_x, prof_y, psi_ez_x, psi_ez_y,
                    curl, dsum, tally, bath_rows[i], gid, bathc, box, wrap_phase)
+
+
+@njit(**PARALLEL)
+def step_tm_blocked(Ez, Hx, Hy, Pz, Pzo, seg, coef, prof_x, prof_y, psi_hy_x, psi_ez_x, psi_hx_y,
+                    psi_ez_y, nchunks, levels, tally, bath_rows, gid, bathc, box, wrap_phase):
+    """Advance by ``levels`` steps in two sweeps, bit-identical to ``levels`` calls of
+    :func:`step_tm` (the schedule of :func:`fdtd.solver.kernels.yee_te.step_te_blocked`)."""
+    nx, ny = Ez.shape
+    for k in prange(nchunks):
+        a = k * nx // nchunks
+        b = (k + 1) * nx // nchunks
+        curl = np.empty_like(Ez[0])
+        dsum = np.empty_like(Ez[0])
+        for r in range(a, b + levels - 1):
+            for s in range(1, levels + 1):
+                i = r - s + 1
+                if i >= a + s - 1 and i < b - s:
+                    _h_row(i, Ez, Hx, Hy, prof_x, prof_y, psi_hy_x, psi_hx_y, wrap_phase)
+                    if i >= a + s:
+                        _e_row(i, Ez, Hx, Hy, Pz, Pzo, seg, coef, prof_x, prof_y, psi_ez_x, psi_ez_y,
+                               curl, dsum, tally, bath_rows[i], gid, bathc, box, wrap_phase)
+    for k in prange(nchunks):
+        bnd = k * nx // nchunks
+        curl = np.empty_like(Ez[0])
+        dsum = np.empty_like(Ez[0])
+        for s in range(1, levels + 1):
+            for q in range(-s, s):
+                i = (bnd + q + nx) % nx
+                if q < s - 1:
+                    _h_row(i, Ez, Hx, Hy, prof_x, prof_y, psi_hy_x, psi_hx_y, wrap_phase)
+                _e_row(i, Ez, Hx, Hy, Pz, Pzo, seg, coef, prof_x, prof_y, psi_ez_x, psi_ez_y,
+                       curl, dsum, tally, bath_rows[i], gid, bathc, box, wrap_phase)
