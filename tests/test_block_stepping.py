@@ -118,3 +118,29 @@ def test_1d_nonlocal_pole_in_compiled_blocks_equals_the_step_by_step_run(tmp_pat
     for k in ("total_power", "normal_power", "anomalous_power", "drag_force"):
         assert a[k] == pytest.approx(b[k], rel=1e-9, abs=1e-12 * abs(b["total_power"])), k
     assert abs(a["ledger_residual"]) < 1e-9 and abs(b["ledger_residual"]) < 1e-9
+
+
+@pytest.mark.filterwarnings("ignore::fdtd.recording.steady.SteadyStateWarning")
+@pytest.mark.parametrize("component", ["Ey", "Hz"])
+def test_1d_field_line_and_snapshots_in_compiled_blocks_equal_the_step_by_step_records(tmp_path, monkeypatch,
+                                                                                        component):
+    """A 1D run that records a field line and snapshots (E or H component) goes in compiled
+    blocks too, and stores the same samples at the same time levels."""
+    def case(name):
+        sc = sheet_case(name)
+        sc = sc.set("record.line_component", component).set("record.line_every", 3)
+        return sc.set("record.snapshots", 4).set("record.snapshot_component", component)
+    with monkeypatch.context() as mp:
+        blocks = counted(mp)
+        fast, _ = run(case("fast"), tmp_path, "fast.h5")
+    assert sum(blocks) >= fast.value("steps")
+    with monkeypatch.context() as mp:
+        one_by_one(mp)
+        slow, _ = run(case("slow"), tmp_path, "slow.h5")
+    fa, fb = fdtd.as_arrays(fast.file), fdtd.as_arrays(slow.file)
+    for name in ("line/time", "snapshots/time"):
+        np.testing.assert_array_equal(fa[name], fb[name])
+    assert fa["line/time"].size > 100 and fa["snapshots/time"].size == 4
+    for name in ("line/data", f"snapshots/{component}"):
+        assert fa[name].shape == fb[name].shape
+        np.testing.assert_allclose(fa[name], fb[name], rtol=1e-9, atol=1e-12 * np.abs(fb[name]).max())

@@ -105,6 +105,9 @@ class DFTRecorder(_Observer):
                                 f"{g.shape}: expected a non-empty selection")
         return region
 
+    def _wants(self, n: int) -> bool:
+        return any(self._clock.takes(k, n) for k in self.kinds)
+
     def _observe(self, n: int) -> None:
         for k in self.kinds:
             if not self._clock.takes(k, n):
@@ -114,7 +117,7 @@ class DFTRecorder(_Observer):
             for c in self.components:
                 if self._kind[c] == k:
                     acc = self._acc[c]
-                    acc += w * self.solver.fields[c][self.region]
+                    acc += w * self._field(c)[self.region]
             if self._count[k] == 0:
                 self._first[k] = t
             self._last[k] = t

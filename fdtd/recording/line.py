@@ -201,6 +201,10 @@ class FieldLineRecorder(_Observer):
         self._file = f
 
     # -- recording ----------------------------------------------------------
+    def _wants(self, n: int) -> bool:
+        return not (self.truncated or self._clock.past_stop(n)) and \
+            any(self._clock.takes(k, n) for k in self.kinds)
+
     def _observe(self, n: int) -> None:
         if self.truncated or self._clock.past_stop(n):
             return
@@ -218,12 +222,11 @@ class FieldLineRecorder(_Observer):
                 return
             self._bytes += add
         wrote = False
-        fields = self.solver.fields
         for k in takes:
             wrote |= self._time_series[k].append(_level_time(k, n, self.dt))
         for c in self.components:
             if self._kind[c] in takes:
-                wrote |= self._series[c].append(fields[c][self._index[c]])
+                wrote |= self._series[c].append(self._field(c)[self._index[c]])
         if wrote:
             self._file.file.flush()
 

@@ -259,6 +259,54 @@ class _Observer:
     def _observe(self, n: int) -> None:  # pragma: no cover - abstract
         raise NotImplementedError
 
+    # -- blocks of 1D steps (fdtd.solver.block1d) ---------------------------
+    #: the fields of the level being observed: the solver's, or a block's kept copy
+    _block_fields: dict | None = None
+
+    def _field(self, component: str) -> np.ndarray:
+        """The array of ``component`` at the level being observed."""
+        kept = self._block_fields
+        return self.solver.fields[component] if kept is None else kept[component]
+
+    def _wants(self, n: int) -> bool:
+        """Whether :meth:`_observe` at level ``n`` may store something (no side effects;
+        True when unsure: an unneeded copy only costs time)."""
+        return True
+
+    @property
+    def accepts_blocks(self) -> bool:
+        """Real 1D runs can hand this recorder a block of steps at once."""
+        return self.grid.dims == 1 and not getattr(self.solver, "complex_fields", False)
+
+    def block_samples(self, solver, m: int) -> np.ndarray:
+        """No mean fields needed (field records store the state at a level).  The first
+        sample, the state before the first step, is taken here: it is the current one."""
+        if not self.closed and not self._primed:
+            self._primed = True
+            self._observe(int(solver.step_count))
+        return np.zeros(m, dtype=np.bool_)
+
+    def block_keeps(self, solver, m: int) -> np.ndarray:
+        """The steps of the next block after which this recorder needs the state."""
+        n0 = int(solver.step_count)
+        if self.closed:
+            return np.zeros(m, dtype=np.bool_)
+        return np.fromiter((self._wants(n0 + s + 1) for s in range(m)), dtype=np.bool_, count=m)
+
+    def after_block(self, solver, block) -> None:
+        """Observe the kept levels of a block, in order (the same records as step by step)."""
+        if self.closed:
+            return
+        for s in np.nonzero(block.keep)[0]:
+            n = block.step0 + int(s) + 1
+            if self._wants(n):
+                self._block_fields = block.fields_after(int(s))
+                try:
+                    self._observe(n)
+                finally:
+                    self._block_fields = None
+        self._level_after = block.step0 + block.m
+
     # -- lifetime ---------------------------------------------------------
     def _detach(self) -> None:
         self.closed = True

@@ -109,6 +109,12 @@ class SnapshotRecorder(_Observer):
         f.file.flush()
         self._file = f
 
+    def _wants(self, n: int) -> bool:
+        tol = TIME_TOL * self.dt
+        req = self.times_requested
+        return any(self._next[k] < req.size and _level_time(k, n, self.dt) >= req[self._next[k]] - tol
+                   for k in self.kinds)
+
     def _observe(self, n: int) -> None:
         tol = TIME_TOL * self.dt
         req = self.times_requested
@@ -121,7 +127,7 @@ class SnapshotRecorder(_Observer):
                 for c in self.components:
                     if self._kind[c] != k:
                         continue
-                    field = self.solver.fields[c]
+                    field = self._field(c)
                     if self._file is None:
                         self._shots[c].append(field.copy())
                     else:

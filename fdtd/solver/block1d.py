@@ -23,7 +23,8 @@ class Block:
     ``sample`` (m,) bool: the steps whose mean field was kept; ``ebar`` (n_sampled, n)
     E-bar of those steps (the one E component: Ey); ``flat``, ``J`` (m, w): the sources'
     nodes and currents; ``work_before`` (m + 1,): the solver's cumulative source work
-    before each step (and after the last)."""
+    before each step (and after the last); ``keep`` (m,) bool: the steps after which the
+    state was kept, ``kept`` {"Ey", "Hz"} -> (n_kept, n) the fields after those steps."""
 
     step0: int
     m: int
@@ -32,6 +33,13 @@ class Block:
     flat: np.ndarray
     J: np.ndarray
     work_before: np.ndarray
+    keep: np.ndarray
+    kept: dict
+
+    def fields_after(self, s: int) -> dict:
+        """The fields after step ``s`` of the block (0-based; ``keep[s]`` must be True)."""
+        r = int(np.count_nonzero(self.keep[:s]))
+        return {c: a[r] for c, a in self.kept.items()}
 
 
 def advance_block_1d(solver, m: int, pre) -> None:
@@ -42,8 +50,15 @@ def advance_block_1d(solver, m: int, pre) -> None:
     sample = np.zeros(m, dtype=np.bool_)
     for obs in s.observers:
         sample |= obs.block_samples(s, m)
+    keep = np.zeros(m, dtype=np.bool_)
+    for obs in s.observers:
+        wants = getattr(obs, "block_keeps", None)
+        if wants is not None:
+            keep |= wants(s, m)
     nx = s.grid.shape[0]
     ebar = np.empty((int(sample.sum()), nx))
+    n_kept = int(keep.sum())
+    kept_e, kept_h = np.empty((n_kept, nx)), np.empty((n_kept, nx))
     work = np.empty(m)
     flux = np.empty(m)
     if s.ledger is not None and s.ledger._flux:
@@ -57,7 +72,7 @@ def advance_block_1d(solver, m: int, pre) -> None:
     advance_1d(m, f["Ey"], f["Hz"], Py, Pyo, s._segs["Ey"], s._coef, s._prof[0], psi["hz_x"], psi["ey_x"],
                s._tally, s.bath_rows[0], s._gid, s._bathc, s._tally_boxes["Ey"], *s._scratch_1d,
                flat, J, s.dt, s.tables["inv_eps"], s._flat_mix["Ey"], s.grid.cell_volume,
-               fe, fh, fw, sample, ebar, work, flux, nl_flow, _nonlocal_args(s))
+               fe, fh, fw, sample, ebar, keep, kept_e, kept_h, work, flux, nl_flow, _nonlocal_args(s))
     step0 = s.step_count
     before = np.empty(m + 1)
     for k in range(m):                      # the same sequence of sums as step by step
@@ -71,7 +86,7 @@ def advance_block_1d(solver, m: int, pre) -> None:
             s.ledger.outflow += flux[k]
     before[m] = s.source_work
     s.step_count += m
-    block = Block(step0, m, sample, ebar, flat, J, before)
+    block = Block(step0, m, sample, ebar, flat, J, before, keep, {"Ey": kept_e, "Hz": kept_h})
     for obs in s.observers:
         obs.after_block(s, block)
 

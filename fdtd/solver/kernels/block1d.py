@@ -20,15 +20,17 @@ from fdtd.solver.kernels.yee1d import step_1d
 @njit(**SERIAL)
 def advance_1d(m, Ey, Hz, Py, Pyo, seg, coef, prof_x, psi_hz_x, psi_ey_x, tally, bath_row, gid, bathc,
                box, curl, dsum, flat, J, dt, inv_eps, mix_flat, dV, face_e, face_h, face_w, sample,
-               ebar, work, flux, nonlocal_flow, nonlocal_pole):
+               ebar, keep, kept_e, kept_h, work, flux, nonlocal_flow, nonlocal_pole):
     """Advance ``m`` steps.
 
     ``flat``, ``J`` (m, w): source nodes and current of each step; ``face_e``, ``face_h``,
     ``face_w`` (q,): E and H nodes and weights of the ledger's faces (q = 0: no ledger);
     ``sample`` (m,) bool: steps whose E-bar = (E^n + E^{n+1})/2 goes into the next row of
-    ``ebar`` (n_sampled, n).  Writes ``work`` (m,) (the sources' work of each step) and
-    ``flux`` (m,) (dt times the outward flux of each step) and ``nonlocal_flow`` (m,) (the
-    energy that leaves the ledger box through a nonlocal pole's polarization gradient).
+    ``ebar`` (n_sampled, n); ``keep`` (m,) bool: steps after which Ey and Hz go into the
+    next rows of ``kept_e``, ``kept_h`` (n_kept, n) (field-line and snapshot records).
+    Writes ``work`` (m,) (the sources' work of each step), ``flux`` (m,) (dt times the
+    outward flux of each step) and ``nonlocal_flow`` (m,) (the energy that leaves the ledger
+    box through a nonlocal pole's polarization gradient).
 
     ``nonlocal_pole``: (on, slot, mix2, nlg, c4, diag, inv_h2, periodic, rows, Q, Pold,
     bathc_all, bath_rows2, kappa) of at most one nonlocal pole slot
@@ -41,6 +43,7 @@ def advance_1d(m, Ey, Hz, Py, Pyo, seg, coef, prof_x, psi_hz_x, psi_ey_x, tally,
     e0 = np.empty(w)
     f0 = np.empty(q)
     row = 0
+    kept = 0
     for s in range(m):
         for k in range(w):
             e0[k] = Ey[flat[s, k]]
@@ -72,3 +75,7 @@ def advance_1d(m, Ey, Hz, Py, Pyo, seg, coef, prof_x, psi_hz_x, psi_ey_x, tally,
             for i in range(Ey.shape[0]):
                 ebar[row, i] = 0.5 * (ebar[row, i] + Ey[i])
             row += 1
+        if keep[s]:
+            kept_e[kept, :] = Ey
+            kept_h[kept, :] = Hz
+            kept += 1
