@@ -74,3 +74,32 @@ def test_lossless_closed_cavity_box_energy_plus_face_flux_is_constant(rng):
     # the face flux really enters the sum (measured up to 1.3 % of the stored energy)
     assert np.max(np.abs(flux)) > 1e-3 * stored[0]
     assert all(np.all(x.bath == 0.0) for x in s.ledger.samples)
+
+
+@pytest.mark.parametrize("pol", ["te", "tm"])
+def test_segment_energy_sums_equal_the_per_cell_sums(pol):
+    """The ledger's stored-energy pass walks row segments (one mixture each); it must give
+    the per-cell sums of the plain form to round-off, part-filled cells and two poles included."""
+    from fdtd.solver.kernels import energy as ek
+
+    mat = f.Material(2.0, (f.LorentzPole(3.0, 0.3, 0.01), f.LorentzPole(1.0, 0.3, 0.02)), "two-pole")
+    g = f.Grid((30, 27), (1.0, 1.0), pol)
+    m = f.Model(g, [(f.HalfSpace("y", below=12.3), mat)], edges=f.CPML(5))
+    s = f.Solver(m, courant=0.9, ledger=True)
+    rng = np.random.default_rng(3)
+    for c in g.e_components:
+        s.fields[c][...] = rng.standard_normal(g.shape)
+        for a in s.polarization[c]:
+            a[...] = rng.standard_normal(a.shape)
+    t = s.tables
+    for c in g.e_components:
+        E, (P, Po) = s.fields[c], s.polarization[c]
+        r = s.ledger.ranges[c][0] + s.ledger.ranges[c][1]
+        wa, wb = np.zeros(4), np.zeros(4)
+        a = ek.e_terms(E, m.mix_maps[c], P, Po, t["eps_inf"], t["n_poles"], t["kin"], t["pot"], t["gid"],
+                       s.dt, *r, wa)
+        b = ek.e_terms_segments(E, s._segs[c], P, Po, t["eps_inf"], t["n_poles"], t["kin"], t["pot"],
+                                t["gid"], s.dt, *r, wb)
+        np.testing.assert_allclose(b, a, rtol=1e-12)
+        np.testing.assert_allclose(wb, wa, rtol=1e-12, atol=1e-12 * np.abs(wa).max())
+        assert np.count_nonzero(wa) == 2

@@ -177,21 +177,19 @@ class EnergyLedger:
         for c in g.e_components:
             E = s.fields[c]
             P, Po = s.polarization[c]
-            mix = s.model.mix_maps[c]
             if g.dims == 1:
                 E2 = E.reshape(1, -1)
-                mix2 = mix.reshape(1, -1)
                 r = (0, 1) + self.ranges[c][0]
             else:
-                E2, mix2 = E, mix
+                E2 = E
                 r = self.ranges[c][0] + self.ranges[c][1]
             # complex fields: the local terms are quadratic forms with real coefficients,
             # so their Hermitian value is the sum over the real and the imaginary parts
             parts = ((E2.real, P.real, Po.real), (E2.imag, P.imag, Po.imag)) if s.complex_fields \
                 else ((E2, P, Po),)
             for E_, P_, Po_ in parts:
-                a, b = ek.e_terms(E_, mix2, P_, Po_, t["eps_inf"], t["n_poles"], t["kin"], t["pot"],
-                                  t["gid"], s.dt, r[0], r[1], r[2], r[3], wp)
+                a, b = ek.e_terms_segments(E_, s._segs[c], P_, Po_, t["eps_inf"], t["n_poles"], t["kin"],
+                                           t["pot"], t["gid"], s.dt, r[0], r[1], r[2], r[3], wp)
                 we += a
                 wx += b
             for slot, mixn, _rows, _Q, _Pold, diag in s.nonlocal_entries.get(c, ()):

@@ -44,7 +44,8 @@ def _row_field_energy(E, mix, eps_inf, i, q0, q1):
 def e_terms(E, mix, P, Po, eps_inf, n_poles, kin, pot, gid, dt, r0, r1, q0, q1, wp_out):
     """Return (sum eps_inf E^2 / 2, sum E dP / 2) over rows [r0, r1), cols [q0, q1).
 
-    Adds each pole's stored energy to ``wp_out[gid]``.  Sums are per unit dV.
+    Adds each pole's stored energy to ``wp_out[gid]``.  Sums are per unit dV.  The plain
+    per-cell form, kept as the twin of :func:`e_terms_segments` (which the ledger uses).
     """
     we = 0.0
     wx = 0.0
@@ -66,10 +67,69 @@ def e_terms(E, mix, P, Po, eps_inf, n_poles, kin, pot, gid, dt, r0, r1, q0, q1, 
     return we, wx
 
 
+@njit(**SERIAL_FAST)
+def _seg_sums(e, p, po, j0, j1):
+    """(sum e d, sum d^2, sum p po) over [j0, j1) with d = p - po (vectorized reductions)."""
+    ed = 0.0
+    dd = 0.0
+    pp = 0.0
+    for j in range(j0, j1):
+        a = p[j]
+        b = po[j]
+        d = a - b
+        ed += e[j] * d
+        dd += d * d
+        pp += a * b
+    return ed, dd, pp
+
+
+@njit(**SERIAL_FAST)
+def _seg_square(e, j0, j1):
+    acc = 0.0
+    for j in range(j0, j1):
+        acc += e[j] * e[j]
+    return acc
+
+
+@njit(**SERIAL)
+def e_terms_segments(E, seg, P, Po, eps_inf, n_poles, kin, pot, gid, dt, r0, r1, q0, q1, wp_out):
+    """:func:`e_terms` walking the row segments of the mixture map (``seg`` = (row_ptr,
+    start, stop, mix), :class:`fdtd.space.model.Segments`): one mixture per segment, so
+    every inner loop is a plain reduction over a contiguous slice.  The same sums as
+    :func:`e_terms` up to round-off (reassociated); used by the ledger."""
+    ptr, st, sp, mx = seg
+    we = 0.0
+    wx = 0.0
+    inv_dt2 = 1.0 / (dt * dt)
+    for i in range(r0, r1):
+        e = E[i]
+        for k in range(ptr[i], ptr[i + 1]):
+            j0 = max(st[k], q0)
+            j1 = min(sp[k], q1)
+            if j1 <= j0:
+                continue
+            m = mx[k]
+            we += 0.5 * eps_inf[m] * _seg_square(e, j0, j1)
+            for s in range(n_poles[m]):
+                ed, dd, pp = _seg_sums(e, P[s, i], Po[s, i], j0, j1)
+                wx += 0.5 * ed
+                wp_out[gid[m, s]] += kin[m, s] * dd * inv_dt2 + pot[m, s] * pp
+    return we, wx
+
+
 @njit(**SERIAL)
 def _re_conj_product(a, b):
     """Re(conj(a) b); for real numbers a * b (the same bits)."""
     return (a.conjugate() * b).real
+
+
+@njit(**SERIAL_FAST)
+def _h_row_te(h, ey0, ey1, ex, kx, ky, ph, q0, q1):
+    w = 0.0
+    for j in range(q0, q1):
+        hn = h[j] - kx * (ph * ey1[j] - ey0[j]) + ky * (ex[j + 1] - ex[j])
+        w += (h[j].conjugate() * hn).real
+    return w
 
 
 @njit(**SERIAL)
@@ -80,14 +140,32 @@ def h_terms_te(Hz, Ex, Ey, kx, ky, r0, r1, q0, q1, wrap_phase):
     """
     nx, ny = Hz.shape
     w = 0.0
+    qa = min(q1, ny - 1)             # columns whose j + 1 needs no wrap
     for i in range(r0, r1):
         ip = (i + 1) % nx
         ph = wrap_phase if ip == 0 else 1.0
-        for j in range(q0, q1):
+        h, ey0, ey1, ex = Hz[i], Ey[i], Ey[ip], Ex[i]
+        w += _h_row_te(h, ey0, ey1, ex, kx, ky, ph, q0, qa)
+        for j in range(max(qa, q0), q1):
             jp = (j + 1) % ny
-            h = Hz[i, j]
-            hn = h - kx * (ph * Ey[ip, j] - Ey[i, j]) + ky * (Ex[i, jp] - Ex[i, j])
-            w += 0.5 * _re_conj_product(h, hn)
+            hn = h[j] - kx * (ph * ey1[j] - ey0[j]) + ky * (ex[jp] - ex[j])
+            w += _re_conj_product(h[j], hn)
+    return 0.5 * w
+
+
+@njit(**SERIAL_FAST)
+def _h_row_tm_x(h, ez, ky, q0, q1):
+    w = 0.0
+    for j in range(q0, q1):
+        w += (h[j].conjugate() * (h[j] - ky * (ez[j + 1] - ez[j]))).real
+    return w
+
+
+@njit(**SERIAL_FAST)
+def _h_row_tm_y(h, ez0, ez1, kx, ph, q0, q1):
+    w = 0.0
+    for j in range(q0, q1):
+        w += (h[j].conjugate() * (h[j] + kx * (ph * ez1[j] - ez0[j]))).real
     return w
 
 
@@ -99,18 +177,18 @@ def h_terms_tm(Hx, Hy, Ez, kx, ky, bx, by, wrap_phase):
     """
     nx, ny = Ez.shape
     w = 0.0
+    qa = min(bx[3], ny - 1)
     for i in range(bx[0], bx[1]):
-        for j in range(bx[2], bx[3]):
+        h, ez = Hx[i], Ez[i]
+        w += _h_row_tm_x(h, ez, ky, bx[2], qa)
+        for j in range(max(qa, bx[2]), bx[3]):
             jp = (j + 1) % ny
-            h = Hx[i, j]
-            w += 0.5 * _re_conj_product(h, h - ky * (Ez[i, jp] - Ez[i, j]))
+            w += _re_conj_product(h[j], h[j] - ky * (ez[jp] - ez[j]))
     for i in range(by[0], by[1]):
         ip = (i + 1) % nx
         ph = wrap_phase if ip == 0 else 1.0
-        for j in range(by[2], by[3]):
-            h = Hy[i, j]
-            w += 0.5 * _re_conj_product(h, h + kx * (ph * Ez[ip, j] - Ez[i, j]))
-    return w
+        w += _h_row_tm_y(Hy[i], Ez[i], Ez[ip], kx, ph, by[2], by[3])
+    return 0.5 * w
 
 
 @njit(**SERIAL)
