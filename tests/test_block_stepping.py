@@ -34,9 +34,9 @@ def counted(monkeypatch) -> list:
     calls = []
     real = b1.advance_block_1d
 
-    def wrapper(solver, m, pre):
+    def wrapper(solver, m, pre, *ledger):
         calls.append(m)
-        return real(solver, m, pre)
+        return real(solver, m, pre, *ledger)
 
     monkeypatch.setattr(b1, "advance_block_1d", wrapper)
     return calls
@@ -144,3 +144,33 @@ def test_1d_field_line_and_snapshots_in_compiled_blocks_equal_the_step_by_step_r
     for name in ("line/data", f"snapshots/{component}"):
         assert fa[name].shape == fb[name].shape
         np.testing.assert_allclose(fa[name], fb[name], rtol=1e-9, atol=1e-12 * np.abs(fb[name]).max())
+
+
+def test_1d_ledger_samples_inside_compiled_blocks_equal_the_step_by_step_samples(monkeypatch):
+    """advance(ledger_every=10) in 1D samples the ledger inside the compiled blocks; the
+    samples (stored energy by part, work, bath heat, outflow) equal those taken after single steps."""
+    from fdtd.experiment.procedure import Experiment
+
+    def solver():
+        exp = Experiment(make_plan(sheet_case("ledger").resolve()), progress=False)
+        exp.state["record_start_step"] = exp.solver.step_count
+        exp._start_recording()
+        return exp.solver
+    with monkeypatch.context() as mp:
+        blocks = counted(mp)
+        fast = solver()
+        fast.advance(steps=700, ledger_every=10, progress=False)
+    assert max(blocks) > 10                 # the blocks ran past the ledger's sampling steps
+    with monkeypatch.context() as mp:
+        one_by_one(mp)
+        slow = solver()
+        slow.advance(steps=700, ledger_every=10, progress=False)
+    a, b = fast.ledger.samples, slow.ledger.samples
+    assert [x.step for x in a] == [x.step for x in b] == list(range(0, 701, 10))
+    for x, y in zip(a, b, strict=True):
+        scale = abs(y.field_e) + abs(y.field_h) + 1e-300
+        for name in ("field_e", "field_h", "cross", "source_work", "outflow"):
+            assert getattr(x, name) == pytest.approx(getattr(y, name), rel=1e-9, abs=1e-12 * scale), name
+        np.testing.assert_allclose(x.poles, y.poles, rtol=1e-9, atol=1e-12 * scale)
+        np.testing.assert_allclose(x.bath, y.bath, rtol=1e-9, atol=1e-12 * scale)
+    assert fast.ledger.samples[-1].stored > 0

@@ -42,8 +42,12 @@ class Block:
         return {c: a[r] for c, a in self.kept.items()}
 
 
-def advance_block_1d(solver, m: int, pre) -> None:
-    """Advance ``solver`` by ``m`` steps with the sources' block currents ``pre``."""
+def advance_block_1d(solver, m: int, pre, ledger_every: int = 0, ledger_origin: int = 0) -> None:
+    """Advance ``solver`` by ``m`` steps with the sources' block currents ``pre``.
+
+    ``ledger_every`` > 0: the energy ledger is sampled inside the block at every level n with
+    (n - ledger_origin) % ledger_every == 0 (the samples :meth:`EnergyLedger.sample` would
+    take there; the solver has no nonlocal pole, :meth:`Solver.ledger_in_blocks`)."""
     s = solver
     flat = np.ascontiguousarray(np.concatenate([f for cur in pre for _c, f, _j in cur], axis=1))
     J = np.ascontiguousarray(np.concatenate([j for cur in pre for _c, _f, j in cur], axis=1))
@@ -69,21 +73,45 @@ def advance_block_1d(solver, m: int, pre) -> None:
     Py, Pyo = s.polarization["Ey"]
     f, psi = s.fields, s.psi
     nl_flow = np.zeros(m)
+    led = s.ledger
+    levels = s.step_count + 1 + np.arange(m)
+    ledger_at = (levels - ledger_origin) % ledger_every == 0 if ledger_every and led is not None \
+        else np.zeros(m, dtype=np.bool_)
+    n_led = int(ledger_at.sum())
+    t = s.tables
+    if led is not None:
+        eq, hq = led.ranges["Ey"][0], led.ranges["Hz"][0]
+    else:
+        eq = hq = (0, 0)
+    ledger_args = (t["eps_inf"], t["n_poles"], t["kin"], t["pot"], t["gid"], eq[0], eq[1], hq[0], hq[1],
+                   s.dt / s.grid.spacing[0])
+    n_gid = led.n_gid if led is not None else 1
+    ledger_e = np.empty((n_led, 3))
+    ledger_wp = np.zeros((n_led, n_gid))
+    ledger_bath = np.empty((n_led, s.bath_rows.shape[1]))
     advance_1d(m, f["Ey"], f["Hz"], Py, Pyo, s._segs["Ey"], s._coef, s._prof[0], psi["hz_x"], psi["ey_x"],
                s._tally, s.bath_rows[0], s._gid, s._bathc, s._tally_boxes["Ey"], *s._scratch_1d,
                flat, J, s.dt, s.tables["inv_eps"], s._flat_mix["Ey"], s.grid.cell_volume,
-               fe, fh, fw, sample, ebar, keep, kept_e, kept_h, work, flux, nl_flow, _nonlocal_args(s))
+               fe, fh, fw, sample, ebar, keep, kept_e, kept_h, work, flux, nl_flow, _nonlocal_args(s),
+               ledger_at, ledger_args, ledger_e, ledger_wp, ledger_bath)
     step0 = s.step_count
     before = np.empty(m + 1)
+    dV = s.grid.cell_volume
+    row = 0
     for k in range(m):                      # the same sequence of sums as step by step
         before[k] = s.source_work
         s.source_work += work[k]
         s.injected_abs += abs(work[k])
         s.nonlocal_outflow += nl_flow[k]
-        if s.ledger is not None:
-            s.ledger.outflow += nl_flow[k]
-            s.ledger.source_work += work[k]
-            s.ledger.outflow += flux[k]
+        if led is not None:
+            led.outflow += nl_flow[k]
+            led.source_work += work[k]
+            led.outflow += flux[k]
+            if ledger_at[k]:
+                we, wx, wh = ledger_e[row]
+                led.record(s.step_count + k + 1, we * dV, wh * dV, wx * dV, ledger_wp[row] * dV,
+                           ledger_bath[row])
+                row += 1
     before[m] = s.source_work
     s.step_count += m
     block = Block(step0, m, sample, ebar, flat, J, before, keep, {"Ey": kept_e, "Hz": kept_h})

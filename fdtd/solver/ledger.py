@@ -225,6 +225,14 @@ class EnergyLedger:
         self.samples.append(smp)
         return smp
 
+    def record(self, step: int, we: float, wh: float, wx: float, wp: np.ndarray, bath_row: np.ndarray) -> None:
+        """Record a sample taken inside a compiled block of 1D steps (fdtd.solver.block1d):
+        the stored energy at level ``step`` (totals, dV applied), the bath tally row then, and
+        the work and outflow this ledger holds now (the caller adds them step by step)."""
+        s = self.solver
+        bath = bath_row[: self.n_gid] * s.model.grid.cell_volume / (4.0 * s.dt)
+        self.samples.append(LedgerSample(step, step * s.dt, we, wh, wx, wp, self.source_work, bath, self.outflow))
+
     def tally_box(self, component: str) -> np.ndarray:
         """(r0, r1, q0, q1) where the kernels tally bath heat for ``component``."""
         g = self.solver.model.grid

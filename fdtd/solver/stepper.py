@@ -389,13 +389,23 @@ class Solver:
             return 1
         return int(want)
 
-    def step(self, n: int = 1) -> None:
+    def ledger_in_blocks(self) -> bool:
+        """Whether :meth:`step` can take ledger samples inside its steps (``ledger_every``):
+        a 1D grid without nonlocal poles (compiled in the 1D block loop, or after each step)."""
+        return self.ledger is not None and self.grid.dims == 1 and not self.nonlocal_entries
+
+    def step(self, n: int = 1, ledger_every: int = 0, ledger_origin: int = 0) -> None:
         """Advance ``n`` steps (no guard rails; see :meth:`run`).
 
         Sources that can (:meth:`~fdtd.sources.prescribed.Source.block_currents`) hand the
         currents of up to :attr:`BLOCK` steps at once; injection and work then run in
         compiled code (real fields), and a 1D run whose observers all accept blocks
-        advances the whole block in one compiled call (:mod:`fdtd.solver.block1d`)."""
+        advances the whole block in one compiled call (:mod:`fdtd.solver.block1d`).
+        ``ledger_every`` > 0 (only where :meth:`ledger_in_blocks`): sample the energy ledger
+        at each level n with (n - ledger_origin) % ledger_every == 0 on the way."""
+        if ledger_every and not self.ledger_in_blocks():
+            raise ParameterError("step(ledger_every=...) needs a 1D solver with a ledger and no nonlocal "
+                                 "pole; use advance(ledger_every=...)")
         levels = self.temporal_levels_now() if n > 1 else 1
         if levels > 1 and n >= levels:
             sweeps = n // levels
@@ -410,9 +420,9 @@ class Solver:
             if pre is not None and self._block_1d_possible():
                 from fdtd.solver.block1d import advance_block_1d
 
-                advance_block_1d(self, m, pre)
+                advance_block_1d(self, m, pre, ledger_every, ledger_origin)
             else:
-                self._step_each(m, pre)
+                self._step_each(m, pre, ledger_every, ledger_origin)
             done += m
 
     def _block_currents(self, m: int):
@@ -433,8 +443,9 @@ class Solver:
         return (self.grid.polarization == "1d" and len(self.nonlocal_entries.get("Ey", ())) <= 1
                 and all(getattr(o, "accepts_blocks", False) for o in self.observers))
 
-    def _step_each(self, n: int, pre=None) -> None:
-        """Advance ``n`` steps one by one (``pre``: the sources' block currents, if any)."""
+    def _step_each(self, n: int, pre=None, ledger_every: int = 0, ledger_origin: int = 0) -> None:
+        """Advance ``n`` steps one by one (``pre``: the sources' block currents, if any;
+        ``ledger_every``: ledger samples due on the way, see :meth:`step`)."""
         dt = self.dt
         inv_eps = self.tables["inv_eps"]
         dV = self.grid.cell_volume
@@ -488,6 +499,8 @@ class Solver:
             # observers see the completed step: E^{n+1}, H^{n+1/2}, step_count = n + 1
             for obs in self.observers:
                 obs.after_step(self, inj)
+            if ledger_every and (self.step_count - ledger_origin) % ledger_every == 0:
+                self.ledger.sample()
 
     # ------------------------------------------------------------------
     def field_energy_measure(self) -> float:
@@ -599,13 +612,18 @@ class Solver:
         t0 = _time.perf_counter()
         try:
             done = 0
+            # a 1D ledger is sampled inside the steps (compiled blocks need not stop for it)
+            inside = bool(ledger_every) and self.ledger_in_blocks()
             while done < steps:
                 chunk = min(self.check_every, steps - done)
-                if ledger_every:
+                if ledger_every and not inside:
                     chunk = min(chunk, ledger_every - (self.step_count - start) % ledger_every)
                 if callback is not None:
                     chunk = min(chunk, callback_every - (self.step_count - start) % callback_every)
-                self.step(chunk)
+                if inside:
+                    self.step(chunk, ledger_every, start)
+                else:
+                    self.step(chunk)
                 done += chunk
                 if (self.step_count - start) % self.check_every == 0 or done == steps:
                     self.check_health()

@@ -12,6 +12,7 @@ from __future__ import annotations
 import numpy as np
 from numba import njit
 
+from fdtd.solver.kernels.energy import e_terms_segments, h_terms_1d
 from fdtd.solver.kernels.options import SERIAL
 from fdtd.solver.kernels.nonlocal_pole import postpass, prepass_serial
 from fdtd.solver.kernels.yee1d import step_1d
@@ -20,7 +21,8 @@ from fdtd.solver.kernels.yee1d import step_1d
 @njit(**SERIAL)
 def advance_1d(m, Ey, Hz, Py, Pyo, seg, coef, prof_x, psi_hz_x, psi_ey_x, tally, bath_row, gid, bathc,
                box, curl, dsum, flat, J, dt, inv_eps, mix_flat, dV, face_e, face_h, face_w, sample,
-               ebar, keep, kept_e, kept_h, work, flux, nonlocal_flow, nonlocal_pole):
+               ebar, keep, kept_e, kept_h, work, flux, nonlocal_flow, nonlocal_pole, ledger_at, ledger_args,
+               ledger_e, ledger_wp, ledger_bath):
     """Advance ``m`` steps.
 
     ``flat``, ``J`` (m, w): source nodes and current of each step; ``face_e``, ``face_h``,
@@ -31,6 +33,13 @@ def advance_1d(m, Ey, Hz, Py, Pyo, seg, coef, prof_x, psi_hz_x, psi_ey_x, tally,
     Writes ``work`` (m,) (the sources' work of each step), ``flux`` (m,) (dt times the
     outward flux of each step) and ``nonlocal_flow`` (m,) (the energy that leaves the ledger
     box through a nonlocal pole's polarization gradient).
+
+    ``ledger_at`` (m,) bool: steps after which the ledger's stored energy is taken (state
+    at the next level; :meth:`fdtd.solver.ledger.EnergyLedger.stored_energy` in compiled
+    form, no nonlocal pole): per unit dV, (E part, cross term, H part) into the next row of
+    ``ledger_e`` (n_led, 3), the poles' energies into ``ledger_wp`` (n_led, n_gid) and the
+    bath tally row into ``ledger_bath`` (n_led, n_bath).  ``ledger_args`` = (eps_inf,
+    n_poles, kin, pot, gid, e_q0, e_q1, h_q0, h_q1, kx).
 
     ``nonlocal_pole``: (on, slot, mix2, nlg, c4, diag, inv_h2, periodic, rows, Q, Pold,
     bathc_all, bath_rows2, kappa) of at most one nonlocal pole slot
@@ -44,6 +53,8 @@ def advance_1d(m, Ey, Hz, Py, Pyo, seg, coef, prof_x, psi_hz_x, psi_ey_x, tally,
     f0 = np.empty(q)
     row = 0
     kept = 0
+    led = 0
+    l_eps, l_np, l_kin, l_pot, l_gid, eq0, eq1, hq0, hq1, l_kx = ledger_args
     for s in range(m):
         for k in range(w):
             e0[k] = Ey[flat[s, k]]
@@ -75,6 +86,14 @@ def advance_1d(m, Ey, Hz, Py, Pyo, seg, coef, prof_x, psi_hz_x, psi_ey_x, tally,
             for i in range(Ey.shape[0]):
                 ebar[row, i] = 0.5 * (ebar[row, i] + Ey[i])
             row += 1
+        if ledger_at[s]:
+            wp = ledger_wp[led]
+            we, wx = e_terms_segments(E2, seg, Py, Pyo, l_eps, l_np, l_kin, l_pot, l_gid, dt, 0, 1, eq0, eq1, wp)
+            ledger_e[led, 0] = we
+            ledger_e[led, 1] = wx
+            ledger_e[led, 2] = h_terms_1d(Hz, Ey, l_kx, hq0, hq1, 1.0)
+            ledger_bath[led, :] = bath_row
+            led += 1
         if keep[s]:
             kept_e[kept, :] = Ey
             kept_h[kept, :] = Hz
