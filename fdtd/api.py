@@ -44,6 +44,9 @@ class CheckReport:
     notes: list = field(default_factory=list)
     seconds: float = float("nan")
     seconds_max: float = float("nan")
+    #: the typical run time with 0, 1, ... automatic grid refinements (whether the grid check
+    #: refines is decided during the run, from its own error estimate)
+    seconds_refined: list = field(default_factory=list)
 
     @property
     def text(self) -> str:
@@ -80,15 +83,19 @@ def check(scenario: Scenario) -> list[CheckReport]:
         # (an eighth of the run), half and half in 1D; an automatic refinement: 8x (2D) or 4x
         # (1D) the run; the isolated emitter: about ten phased runs of complex fields (2.6
         # times the work per step)
-        extra = extra_max = 1.0
+        # (each refinement is a run on the grid halved; the run before it is its companion)
+        extra = 1.0
+        refine = []
         if p.kind == "comoving" and p.grid_check:
             extra += 0.125 if p.dims == 2 else 0.25
-            companion = 0.125 if p.dims == 2 else 0.25
-            extra_max = extra + p.grid_refinements * (8.0 if p.dims == 2 else 4.0) * (1 + companion)
-        if p.kind == "comoving" and p.isolated:
-            extra += 2.6 * min(10, p.isolated_max_runs)
-            extra_max += 2.6 * min(10, p.isolated_max_runs)
-        t_typ, t_max = extra * t_one, extra_max * t_one_max
+            grow = 8.0 if p.dims == 2 else 4.0
+            refine = [sum(grow ** (k + 1) for k in range(n)) for n in range(p.grid_refinements + 1)]
+        refine = refine or [0.0]
+        iso = 2.6 * min(10, p.isolated_max_runs) if p.kind == "comoving" and p.isolated else 0.0
+        # the isolated-emitter runs go on the finest grid
+        grow_iso = [iso * (8.0 if p.dims == 2 else 4.0) ** n for n in range(len(refine))]
+        rep.seconds_refined = [(extra + r + g) * t_one for r, g in zip(refine, grow_iso, strict=True)]
+        t_typ, t_max = rep.seconds_refined[0], (extra + refine[-1] + grow_iso[-1]) * t_one_max
         rep.seconds, rep.seconds_max = t_typ, t_max
         if p.kind == "comoving":
             left = (p.max_time - p.switch_on) / (p.transits * p.transit)
@@ -120,9 +127,11 @@ def check(scenario: Scenario) -> list[CheckReport]:
                        f"building {memory_estimate(p) / 2**20:.0f} MiB; {memory_available() / 2**30:.3g} GiB "
                        "available)"),
             ("results", f"about {max(disk_estimate(p), 2**20) / 2**20:.0f} MiB (snapshots and field line)"),
-            ("run time", f"about {_fmt_time(t_typ)}" + (f" (at most {_fmt_time(t_max)}, with every window "
-                                                          "run.max_time allows and the automatic grid "
-                                                          "refinement)" if t_max > 1.5 * t_typ else "")
+            ("run time", f"about {_fmt_time(t_typ)}"
+             + (f" on this grid, about {_fmt_time(rep.seconds_refined[1])} if the grid check refines it once"
+                if len(rep.seconds_refined) > 1 else "")
+             + (f" (at most {_fmt_time(t_max)}, with every window run.max_time allows and every automatic "
+                "grid refinement)" if t_max > 1.5 * t_typ else "")
              + f"; a step costs {cost.window * 1e6:.3g} us here, measured on this cell"),
         ]
         reports.append(rep)
