@@ -126,7 +126,10 @@ def check(scenario: Scenario) -> list[CheckReport]:
             ("memory", f"{arrays / 2**20:.0f} MiB of field and polarization arrays (estimate before "
                        f"building {memory_estimate(p) / 2**20:.0f} MiB; {memory_available() / 2**30:.3g} GiB "
                        "available)"),
-            ("results", f"about {max(disk_estimate(p), 2**20) / 2**20:.0f} MiB (snapshots and field line)"),
+            ("results", f"about {max(disk_estimate(p), 2**20) / 2**20:.0f} MiB (snapshots and field line"
+                        + (f"; about {4 if p.dims == 1 else 8} times that if the grid check refines the grid"
+                           if p.kind == "comoving" and p.grid_check and p.grid_refinements and
+                           (p.snapshots or p.line_component) else "") + ")"),
             ("run time", f"about {_fmt_time(t_typ)}"
              + (f" on this grid, about {_fmt_time(rep.seconds_refined[1])} if the grid check refines it once"
                 if len(rep.seconds_refined) > 1 else "")
