@@ -127,7 +127,7 @@ def check(scenario: Scenario) -> list[CheckReport]:
                        f"building {memory_estimate(p) / 2**20:.0f} MiB; {memory_available() / 2**30:.3g} GiB "
                        "available)"),
             ("results", f"about {max(disk_estimate(p), 2**20) / 2**20:.0f} MiB (snapshots and field line"
-                        + (f"; about {4 if p.dims == 1 else 8} times that if the grid check refines the grid"
+                        + ("; about 4 times that if the grid check refines the grid"
                            if p.kind == "comoving" and p.grid_check and p.grid_refinements and
                            (p.snapshots or p.line_component) else "") + ")"),
             ("run time", f"about {_fmt_time(t_typ)}"
