@@ -205,6 +205,15 @@ class FieldLineRecorder(_Observer):
         return not (self.truncated or self._clock.past_stop(n)) and \
             any(self._clock.takes(k, n) for k in self.kinds)
 
+    def block_keeps(self, solver, m: int) -> np.ndarray:
+        levels = int(solver.step_count) + 1 + np.arange(m)
+        if self.closed or self.truncated:
+            return np.zeros(m, dtype=np.bool_)
+        out = np.zeros(m, dtype=np.bool_)
+        for k in self.kinds:
+            out |= self._clock.takes_many(k, levels)
+        return out
+
     def _observe(self, n: int) -> None:
         if self.truncated or self._clock.past_stop(n):
             return

@@ -354,6 +354,14 @@ class _Clock:
         tol = TIME_TOL * self.dt
         return self.start - tol <= t <= self.stop + tol
 
+    def takes_many(self, kind: str, n: np.ndarray) -> np.ndarray:
+        """:meth:`takes` for an array of levels (bool array of the same shape)."""
+        n = np.asarray(n)
+        t = (n - _kind_shift(kind)) * self.dt
+        tol = TIME_TOL * self.dt
+        return (n >= self.n0) & ((n - self.n0) % self.every == 0) & (t >= self.start - tol) & \
+            (t <= self.stop + tol)
+
     def past_stop(self, n: int) -> bool:
         """True once even the H time (the later stop) of level n is beyond stop."""
         return _level_time("H", n, self.dt) > self.stop + TIME_TOL * self.dt
