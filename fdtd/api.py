@@ -57,6 +57,28 @@ class CheckReport:
         return "\n".join(lines)
 
 
+def _refined_cost_ratio(p, cost, t_one: float, where) -> float | None:
+    """The run time of the point on the grid refined once, relative to ``t_one`` (the run on
+    the planned grid): twice the steps, at a step cost measured on the refined cell.  None
+    when the refined cell is not built (it would not fit: the run would not refine either)."""
+    from fdtd.experiment.grid_check import refined_plan
+    from fdtd.experiment.procedure import Experiment
+    from fdtd.experiment.resources import ResourceError, guard
+    from fdtd.experiment.timing import step_cost
+
+    r = refined_plan(p)
+    try:
+        guard(r, where)
+    except ResourceError:
+        return None
+    fine = Experiment(r, progress=False)
+    steps_typ = fine.expected_steps()
+    ramp = fine.ramp_steps if r.kind == "comoving" else 0
+    c = step_cost(fine)
+    t_fine = ramp * c.ramp + (steps_typ - ramp) * c.window
+    return t_fine / t_one if t_one > 0 else None
+
+
 def check(scenario: Scenario) -> list[CheckReport]:
     """Resolved grid, estimates and warnings for each scan point (nothing is stepped)."""
     from fdtd.experiment.procedure import Experiment
@@ -83,13 +105,18 @@ def check(scenario: Scenario) -> list[CheckReport]:
         # (an eighth of the run), half and half in 1D; an automatic refinement: 8x (2D) or 4x
         # (1D) the run; the isolated emitter: about ten phased runs of complex fields (2.6
         # times the work per step)
-        # (each refinement is a run on the grid halved; the run before it is its companion)
+        # (each refinement is a run on the grid halved; the run before it is its companion).
+        # The first refinement's step cost is measured on the refined cell too: small cells
+        # do not cost in proportion to their size; further ones scale by the work.
         extra = 1.0
         refine = []
         if p.kind == "comoving" and p.grid_check:
             extra += 0.125 if p.dims == 2 else 0.25
             grow = 8.0 if p.dims == 2 else 4.0
-            refine = [sum(grow ** (k + 1) for k in range(n)) for n in range(p.grid_refinements + 1)]
+            first = grow
+            if p.grid_refinements:
+                first = _refined_cost_ratio(p, cost, t_one, pt.where) or grow
+            refine = [sum(first * grow ** k for k in range(n)) for n in range(p.grid_refinements + 1)]
         refine = refine or [0.0]
         iso = 2.6 * min(10, p.isolated_max_runs) if p.kind == "comoving" and p.isolated else 0.0
         # the isolated-emitter runs go on the finest grid

@@ -141,7 +141,7 @@ def check_time(c: Claims, quoted: str, seconds: float, quoted_s: float) -> None:
 # ----------------------------------------------------------------------------- the files
 def bulk_exciton_threshold(path, out, seconds, rep, c: Claims) -> None:
     speeds = [0.13, 0.15, 0.17, 0.19]
-    quoted = ["1.0e-5", "3.2e-5", "1.6e-4", "3.2e-4"]
+    quoted = ["1.0e-5", "2.9e-5", "1.6e-4", "3.2e-4"]
     P = out.points
     up = [fig(p, "excitation_rate_ratio", "value") for p in P]
     err = [fig(p, "excitation_rate_ratio", "error") for p in P]
@@ -174,16 +174,18 @@ def bulk_exciton_threshold(path, out, seconds, rep, c: Claims) -> None:
              "branch against the reference.")
     rep.table(["v [c]", "k_x", "omega", "2 pi / T_rec", "Omega/omega", "simulated power", "reference power",
                "anomalous branch / reference"], diag)
-    c.add("Gamma_up/Gamma_0 = 1.0e-5, 3.2e-5, 1.6e-4, 3.2e-4 at 0.13, 0.15, 0.17, 0.19 c",
+    c.add("Gamma_up/Gamma_0 = 1.0e-5, 2.9e-5, 1.6e-4, 3.2e-4 at 0.13, 0.15, 0.17, 0.19 c",
           ", ".join(f"{u:.2e}" for u in up), all(same_digits(u, q) for u, q in zip(up, quoted)))
     within = [abs(u - r) <= e for u, r, e in zip(up, ref, err)]
     c.add("each within its error of the exact bulk reference except at 0.15 c",
           ", ".join(f"{v:.2f}: |diff| = {abs(u - r) / e:.2f} x error (error {e / abs(r):.0%} of the reference)"
                     for v, u, r, e in zip(speeds, up, ref, err)),
           all(w for w, v in zip(within, speeds) if v != 0.15))
-    c.add("at 0.15 c the run summary flags the power as coming from near the grid's cutoff",
-          "flagged at " + (", ".join(f"{v:.2f}" for v, fl in zip(speeds, flagged) if fl) or "no speed"),
-          flagged[1])
+    share = fig(P[1], "anomalous_share_near_grid_cutoff") or 0.0
+    c.add("at 0.15 c: 5 % above the reference, 14 % of the anomalous power at k dx > pi/6, not flagged",
+          f"{up[1] / ref[1] - 1:+.1%}, share {share:.1%}; flagged at "
+          + (", ".join(f"{v:.2f}" for v, fl in zip(speeds, flagged) if fl) or "no speed"),
+          round(100 * (up[1] / ref[1] - 1)) == 5 and round(100 * share) == 14 and not flagged[1])
     steps = [u2 / u1 for u1, u2 in zip(up[:-1], up[1:])]
     c.add("the anomalous branch switches on just above 0.15 c (steepest rise of the scan 0.15 -> 0.17 c)",
           "ratios between neighbouring speeds " + ", ".join(f"{s:.1f}" for s in steps),
@@ -205,7 +207,7 @@ def bulk_exciton_threshold(path, out, seconds, rep, c: Claims) -> None:
     c.add("without beta_nl the threshold moves with grid.cell",
           f"local grid threshold {th[0.025]:.4f} c at dx = 0.025, {th[0.0125]:.4f} c at 0.0125",
           th[0.0125] < 0.75 * th[0.025])
-    check_time(c, "about 90 s for the four speeds on two cores", seconds, 90)
+    check_time(c, "about 2 min for the four speeds on two cores", seconds, 120)
 
 
 def charge_cherenkov_slab(path, out, seconds, rep, c: Claims) -> None:
@@ -219,7 +221,7 @@ def charge_cherenkov_slab(path, out, seconds, rep, c: Claims) -> None:
     c.add("beta^2 eps > 1 only between w1 (2.18 eV) and W = 4 eV",
           f"band edges {', '.join(f'{e:.4f}' for e in edges)}",
           len(edges) == 2 and round(edges[0], 2) == 2.18 and abs(edges[1] - 4.0) < 1e-9)
-    c.add("w1 = 0.546 W", f"w1/W = {edges[0] / W:.4f}", same_digits(edges[0] / W, "0.546"))
+    c.add("w1 = 0.545 W", f"w1/W = {edges[0] / W:.4f}", same_digits(edges[0] / W, "0.545"))
     with fdtd.open_results(out.file) as res:
         spec = res.spectrum()
         window = res.attrs("doppler")["window"]
@@ -274,13 +276,14 @@ def charge_cherenkov_slab(path, out, seconds, rep, c: Claims) -> None:
     ax.legend(fontsize=8)
     rep.image(save(figr, "worked_charge_cherenkov_slab.png"), "Passage spectrum of the line charge in the "
               "slab, with the band edges (dotted) and omega_L (dashed)")
-    c.add("the open-domain analysis over the middle of the slab gives the emitted spectrum: Cherenkov in "
-          "[w1, W] only (held: at least 90 % of the work in the band)",
+    c.add("the work spectrum: the Cherenkov band (about 11 % of the work) and the line at omega_L = 6 eV "
+          "(about 89 %) (held: those shares to the quoted digits, and together at least 99 % of the work)",
           f"{P[inband].sum() / total:.1%} in the band, {P[near_L].sum() / total:.1%} at omega_L = {w_L:.1f}",
-          P[inband].sum() >= 0.9 * total)
+          round(100 * P[inband].sum() / total) == 11 and round(100 * P[near_L].sum() / total) == 89
+          and (P[inband].sum() + P[near_L].sum()) >= 0.99 * total and round(w_L, 6) == 6.0)
     c.add("the snapshots make the animation (30 snapshots)", f"{nsnap} snapshots in the results file",
           nsnap == 30)
-    check_time(c, "about 10 s", seconds, 10)
+    check_time(c, "about 5 s", seconds, 5)
 
 
 def _broad_line_diagnostic(path, mat, w, P, dw) -> dict:
@@ -333,12 +336,12 @@ def polar_crystal_glide(path, out, seconds, rep, c: Claims) -> None:
           "error at 0.2-0.45 c)",
           ", ".join(f"{v:.2f}: {u / r - 1:+.1%} (error {e / r:.1%})" for v, u, r, e in zip(speeds, up, ref, err)),
           all(abs(u / r - 1) <= max(0.10, e / r) for v, u, r, e in zip(speeds, up, ref, err) if v > 0.1))
-    c.add("... at 3e-4 to 6e-3 of Gamma_0", f"{min(up):.2e} .. {max(up):.2e} (reference {min(ref):.2e} .. "
-          f"{max(ref):.2e})", same_digits(min(up), "3e-4") and same_digits(max(up), "6e-3"))
+    c.add("... at 2e-5 to 4e-2 of Gamma_0", f"{min(up):.2e} .. {max(up):.2e} (reference {min(ref):.2e} .. "
+          f"{max(ref):.2e})", same_digits(min(up), "2e-5") and same_digits(max(up), "4e-2"))
     c.add("at 0.1 c the run summary flags it as coming from near the grid's cutoff",
           "flagged at " + (", ".join(f"{v:.2f}" for v, fl in zip(speeds, flagged) if fl) or "no speed")
           + f" (there the cell's figure is {up[0] / ref[0] - 1:+.0%} off the reference)", flagged[0])
-    check_time(c, "about 100 s for the four speeds on two cores", seconds, 100)
+    check_time(c, "about 8 min for the four speeds on two cores", seconds, 480)
 
 
 def slot_gap_width(path, out, seconds, rep, c: Claims) -> None:
@@ -367,7 +370,7 @@ def slot_gap_width(path, out, seconds, rep, c: Claims) -> None:
           + ", ".join(f"{u:.2e}" for u in upr) + " (total " + ", ".join(f"{t:.4f}" for t in tot)
           + ": not monotonic, as in the reference)",
           all(b < a for a, b in zip(ano[:-1], ano[1:])) and all(b < a for a, b in zip(upr[:-1], upr[1:])))
-    check_time(c, "about 40 s for the three gaps", seconds, 40)
+    check_time(c, "about 3 min for the three gaps on two cores", seconds, 180)
 
 
 CHECKS = {"bulk_exciton_threshold": bulk_exciton_threshold, "charge_cherenkov_slab": charge_cherenkov_slab,

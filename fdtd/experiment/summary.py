@@ -330,11 +330,25 @@ def _quantum_rates(p, spec, F: _Figures) -> None:
     def put(name, value, err, units, normalized=None):
         F.plain(name, float(value), units, None if not math.isfinite(err) else float(err), normalized)
 
-    put("decay_rate", r.gamma_down, r.gamma_down_error, unit)
-    put("excitation_rate", r.gamma_up, r.gamma_up_error, unit)
+    def branch_share(branch: str) -> float:
+        # a rate is its branch's power reweighted point by point (Omega/omega): it carries the
+        # relative error of that branch's power figure (settling and grid), not only the
+        # half-window spread the rate module computes from the spectrum alone
+        f = F.d.get(f"{branch}_power")
+        if not f or f["error"] is None or not f["value"]:
+            return 0.0
+        return abs(f["error"] / f["value"])
+
+    e_down = max(r.ratio_down_error if math.isfinite(r.ratio_down_error) else 0.0,
+                 abs(r.ratio_down) * branch_share("normal"))
+    e_up = max(r.ratio_up_error if math.isfinite(r.ratio_up_error) else 0.0,
+               abs(r.ratio_up) * branch_share("anomalous"))
+    G0 = r.gamma_free
+    put("decay_rate", r.gamma_down, e_down * G0 if math.isfinite(G0) else math.nan, unit)
+    put("excitation_rate", r.gamma_up, e_up * G0 if math.isfinite(G0) else math.nan, unit)
     put("free_space_decay_rate", r.gamma_free, math.nan, unit)
-    put("decay_rate_ratio", r.ratio_down, r.ratio_down_error, "1", float(r.ratio_down))
-    put("excitation_rate_ratio", r.ratio_up, r.ratio_up_error, "1", float(r.ratio_up))
+    put("decay_rate_ratio", r.ratio_down, e_down, "1", float(r.ratio_down))
+    put("excitation_rate_ratio", r.ratio_up, e_up, "1", float(r.ratio_up))
     F.plain("transition_dipole", float(d), Q._SI_MOMENT[p.dims].split()[0])
 
 

@@ -44,8 +44,10 @@ def step_cost(exp) -> StepCost:
     the cost of a step of ``exp`` (an :class:`~fdtd.experiment.procedure.Experiment` that
     has not run: it is used up by the measurement)."""
     p, s = exp.plan, exp.solver
+    # the recorders' cost depends on the point (their sampling follows the speed and the
+    # source frequency, their harmonics the window): only identical points share a measurement
     key = (p.polarization, s.grid.shape, exp.model.max_poles, p.source_kind, p.kind, p.doppler,
-           tuple(p.flux_heights), s.threads)
+           tuple(p.flux_heights), s.threads, p.speed, p.omega0, p.transits, p.length, p.cell)
     if key in _CACHE:
         return _CACHE[key]
     ramp = _timed(s)
