@@ -375,6 +375,10 @@ def test_json_summary_carries_equivalent_quantum_rates(tmp_path, capsys):
         assert p[f"{name}_rate"]["value"] == pytest.approx(r["value"] * gamma0, rel=1e-9)
         ref = p[f"reference_{name}_rate_ratio"]["value"]
         assert abs(r["value"] - ref) <= 0.05 * abs(ref) + 3 * r["error"], (name, r, ref)
+        # a rate carries at least the relative error of its branch's power (settling and grid)
+        branch = p["normal_power" if name == "decay" else "anomalous_power"]
+        assert r["error"] >= r["value"] * branch["error"] / branch["value"] * (1 - 1e-12), (name, r, branch)
+        assert p[f"{name}_rate"]["error"] == pytest.approx(r["error"] * gamma0, rel=1e-9)
     assert p["excitation_rate_ratio"]["value"] > 0.01      # v = 0.6 pumps the oscillator here
     assert p["transition_dipole"]["value"] == pytest.approx(d, rel=1e-12)
 
