@@ -12,6 +12,8 @@ The command line (``gapwake``) is a thin layer over these functions.
 
 from __future__ import annotations
 
+import time
+
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -90,7 +92,9 @@ def check(scenario: Scenario) -> list[CheckReport]:
     for pt, p in plan_points(scenario):
         rep = CheckReport(warnings=list(p.warnings), notes=list(p.notes) + list(p.adjustments))
         guard(p, pt.where)                           # refuses what does not fit, before allocating
+        t_build = time.perf_counter()
         exp = Experiment(p, progress=False)          # builds model and solver
+        t_build = time.perf_counter() - t_build      # (a charge's electrostatic start is in it)
         s = exp.solver
         ell = p.ell
         cells = s.grid.n_cells
@@ -121,8 +125,12 @@ def check(scenario: Scenario) -> list[CheckReport]:
         iso = 2.6 * min(10, p.isolated_max_runs) if p.kind == "comoving" and p.isolated else 0.0
         # the isolated-emitter runs go on the finest grid
         grow_iso = [iso * (8.0 if p.dims == 2 else 4.0) ** n for n in range(len(refine))]
-        rep.seconds_refined = [(extra + r + g) * t_one for r, g in zip(refine, grow_iso, strict=True)]
-        t_typ, t_max = rep.seconds_refined[0], (extra + refine[-1] + grow_iso[-1]) * t_one_max
+        # set-up of each run: the one measured here, the companion's, 4x per refinement
+        companion = p.kind == "comoving" and p.grid_check
+        builds = [t_build * ((2.0 if companion else 1.0) + 4.0 * n)
+                  for n in range(len(refine))]
+        rep.seconds_refined = [(extra + r + g) * t_one + b for r, g, b in zip(refine, grow_iso, builds, strict=True)]
+        t_typ, t_max = rep.seconds_refined[0], (extra + refine[-1] + grow_iso[-1]) * t_one_max + builds[-1]
         rep.seconds, rep.seconds_max = t_typ, t_max
         if p.kind == "comoving":
             left = (p.max_time - p.switch_on) / (p.transits * p.transit)
