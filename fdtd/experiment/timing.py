@@ -13,7 +13,7 @@ import time
 from dataclasses import dataclass
 
 #: each phase is timed for at least this long (s), in doubling batches of steps
-MIN_SECONDS = 0.4
+MIN_SECONDS = 0.15
 MAX_STEPS = 4096
 
 _CACHE: dict = {}
