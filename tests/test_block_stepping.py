@@ -42,6 +42,19 @@ def counted(monkeypatch) -> list:
     return calls
 
 
+def both_ways(case, tmp_path, monkeypatch):
+    """Run ``case(name)`` through fdtd.run in compiled blocks and step by step; the block
+    path must have covered every step.  Returns (fast, slow) run outputs."""
+    with monkeypatch.context() as mp:
+        blocks = counted(mp)
+        fast, _ = run(case("fast"), tmp_path, "fast.h5")
+    assert sum(blocks) >= fast.value("steps")
+    with monkeypatch.context() as mp:
+        one_by_one(mp)
+        slow, _ = run(case("slow"), tmp_path, "slow.h5")
+    return fast, slow
+
+
 def sheet_case(name: str):
     return scenario({"lz": LZ}, {"background": "lz"},
                     {"polarization": "1d", "cell": 0.05, "length": 6.0},
@@ -107,13 +120,7 @@ def test_1d_nonlocal_pole_in_compiled_blocks_equals_the_step_by_step_run(tmp_pat
         sc = sc.set("materials.lz.poles", [{"kind": "lorentz", "delta_eps": 2.0, "omega": 1.0, "gamma": 0.1,
                                             "beta_nl": "0.15 c"}])
         return sc
-    with monkeypatch.context() as mp:
-        blocks = counted(mp)
-        fast, _ = run(case("fast"), tmp_path, "fast.h5")
-    assert sum(blocks) >= fast.value("steps")
-    with monkeypatch.context() as mp:
-        one_by_one(mp)
-        slow, _ = run(case("slow"), tmp_path, "slow.h5")
+    fast, slow = both_ways(case, tmp_path, monkeypatch)
     a, b = figures(fast), figures(slow)
     for k in ("total_power", "normal_power", "anomalous_power", "drag_force"):
         assert a[k] == pytest.approx(b[k], rel=1e-9, abs=1e-12 * abs(b["total_power"])), k
@@ -130,13 +137,7 @@ def test_1d_field_line_and_snapshots_in_compiled_blocks_equal_the_step_by_step_r
         sc = sheet_case(name)
         sc = sc.set("record.line_component", component).set("record.line_every", 3)
         return sc.set("record.snapshots", 4).set("record.snapshot_component", component)
-    with monkeypatch.context() as mp:
-        blocks = counted(mp)
-        fast, _ = run(case("fast"), tmp_path, "fast.h5")
-    assert sum(blocks) >= fast.value("steps")
-    with monkeypatch.context() as mp:
-        one_by_one(mp)
-        slow, _ = run(case("slow"), tmp_path, "slow.h5")
+    fast, slow = both_ways(case, tmp_path, monkeypatch)
     fa, fb = fdtd.as_arrays(fast.file), fdtd.as_arrays(slow.file)
     for name in ("line/time", "snapshots/time"):
         np.testing.assert_array_equal(fa[name], fb[name])

@@ -210,10 +210,12 @@ class EnergyLedger:
                                np.array(rx[0] + rx[1]), np.array(ry[0] + ry[1]), s.wrap_phase)
         return we * dV, wh * dV, wx * dV, wp * dV
 
-    def bath_heat(self) -> np.ndarray:
-        """Cumulative heat handed to the bath per material pole (normalized energy)."""
+    def bath_heat(self, tally: np.ndarray | None = None) -> np.ndarray:
+        """Cumulative heat handed to the bath per material pole (normalized energy), from the
+        kernels' tally (default: the solver's tally rows now; or one row kept earlier)."""
         s = self.solver
-        return s.bath_rows.sum(axis=0)[: self.n_gid] * s.model.grid.cell_volume / (4.0 * s.dt)
+        t = s.bath_rows.sum(axis=0) if tally is None else tally
+        return t[: self.n_gid] * s.model.grid.cell_volume / (4.0 * s.dt)
 
     def sample(self) -> LedgerSample:
         """Record the balance now (once per step: a second call at the same step returns the first)."""
@@ -230,8 +232,8 @@ class EnergyLedger:
         the stored energy at level ``step`` (totals, dV applied), the bath tally row then, and
         the work and outflow this ledger holds now (the caller adds them step by step)."""
         s = self.solver
-        bath = bath_row[: self.n_gid] * s.model.grid.cell_volume / (4.0 * s.dt)
-        self.samples.append(LedgerSample(step, step * s.dt, we, wh, wx, wp, self.source_work, bath, self.outflow))
+        self.samples.append(LedgerSample(step, step * s.dt, we, wh, wx, wp, self.source_work,
+                                         self.bath_heat(bath_row), self.outflow))
 
     def tally_box(self, component: str) -> np.ndarray:
         """(r0, r1, q0, q1) where the kernels tally bath heat for ``component``."""

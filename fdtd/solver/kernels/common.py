@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import numpy as np
 from numba import njit
 
 from fdtd.solver.kernels.options import SERIAL
@@ -86,3 +87,47 @@ def update_e_row(e_row, P, Po, i, curl, dsum, seg_lo, seg_hi, seg_start, seg_sto
                     ds[j] += pnew - pn
         for j in range(nj):
             e[j] += ie * (cu[j] - ds[j])
+
+
+#: what a temporally blocked sweep does on a row: its H update, its E update, or both (H first)
+DO_H = 1
+DO_E = 2
+
+
+@njit(**SERIAL)
+def blocked_schedule(nx, nchunks, levels):
+    """The row updates of ``levels`` temporally blocked steps (docs/theory/temporal-blocking.md),
+    shared by the TE_z and TM_z drivers.
+
+    Returns ``(ops1, n1, ops2, n2)``: ``ops1[k, :n1[k]]`` are the (row, DO_H | DO_E) updates of
+    row block k in phase 1 (a wavefront, level s on row r - s + 1, valid rows shrinking by one
+    per level at both ends); ``ops2[k, :n2[k]]`` those of the fill around the boundary at the
+    start of block k (the x wrap for k = 0), level by level.  The blocks of one phase touch
+    disjoint rows when each holds at least 2 * levels + 2 rows."""
+    longest = 0
+    for k in range(nchunks):
+        longest = max(longest, (k + 1) * nx // nchunks - k * nx // nchunks)
+    ops1 = np.empty((nchunks, (longest + levels) * levels, 2), dtype=np.int64)
+    n1 = np.zeros(nchunks, dtype=np.int64)
+    ops2 = np.empty((nchunks, levels * (2 * levels + 1), 2), dtype=np.int64)
+    n2 = np.zeros(nchunks, dtype=np.int64)
+    for k in range(nchunks):
+        a = k * nx // nchunks
+        b = (k + 1) * nx // nchunks
+        q = 0
+        for r in range(a, b + levels - 1):
+            for s in range(1, levels + 1):
+                i = r - s + 1
+                if i >= a + s - 1 and i < b - s:
+                    ops1[k, q, 0] = i
+                    ops1[k, q, 1] = DO_H | (DO_E if i >= a + s else 0)
+                    q += 1
+        n1[k] = q
+        q = 0
+        for s in range(1, levels + 1):
+            for d in range(-s, s):
+                ops2[k, q, 0] = (a + d + nx) % nx
+                ops2[k, q, 1] = DO_E | (DO_H if d < s - 1 else 0)
+                q += 1
+        n2[k] = q
+    return ops1, n1, ops2, n2

@@ -45,7 +45,7 @@ from __future__ import annotations
 import numpy as np
 from numba import njit, prange
 
-from fdtd.solver.kernels.common import pml_slot, update_e_row
+from fdtd.solver.kernels.common import DO_E, DO_H, blocked_schedule, pml_slot, update_e_row
 from fdtd.solver.kernels.options import PARALLEL, SERIAL
 
 
@@ -184,30 +184,18 @@ def step_te_blocked(Ex, Ey, Hz, Px, Pxo, Py, Pyo, seg_x, seg_y, coef, prof_x, pr
     trapezoid shrinking by one row per level at both ends); then the V-shaped gaps
     around the block boundaries (the x wrap included) are filled level by level.
     Each of the ``nchunks`` row blocks must hold at least 2 * levels + 2 rows."""
-    nx, ny = Hz.shape
-    for k in prange(nchunks):
-        a = k * nx // nchunks
-        b = (k + 1) * nx // nchunks
-        curl = np.empty_like(Hz[0])
-        dsum = np.empty_like(Hz[0])
-        for r in range(a, b + levels - 1):
-            for s in range(1, levels + 1):
-                i = r - s + 1
-                if i >= a + s - 1 and i < b - s:
+    ops1, n1, ops2, n2 = blocked_schedule(Hz.shape[0], nchunks, levels)
+    for phase in range(2):
+        ops, n = (ops1, n1) if phase == 0 else (ops2, n2)
+        for k in prange(nchunks):
+            curl = np.empty_like(Hz[0])
+            dsum = np.empty_like(Hz[0])
+            for q in range(n[k]):
+                i = ops[k, q, 0]
+                what = ops[k, q, 1]
+                if what & DO_H:
                     _h_row(i, Ex, Ey, Hz, prof_x, prof_y, psi_hz_x, psi_hz_y, wrap_phase)
-                    if i >= a + s:
-                        _e_rows(i, Ex, Ey, Hz, Px, Pxo, Py, Pyo, seg_x, seg_y, coef, prof_x, prof_y,
-                                psi_ex_y, psi_ey_x, curl, dsum, tally, bath_rows[i], gid, bathc,
-                                box_x, box_y, wrap_phase)
-    for k in prange(nchunks):
-        bnd = k * nx // nchunks
-        curl = np.empty_like(Hz[0])
-        dsum = np.empty_like(Hz[0])
-        for s in range(1, levels + 1):
-            for q in range(-s, s):
-                i = (bnd + q + nx) % nx
-                if q < s - 1:
-                    _h_row(i, Ex, Ey, Hz, prof_x, prof_y, psi_hz_x, psi_hz_y, wrap_phase)
-                _e_rows(i, Ex, Ey, Hz, Px, Pxo, Py, Pyo, seg_x, seg_y, coef, prof_x, prof_y,
-                        psi_ex_y, psi_ey_x, curl, dsum, tally, bath_rows[i], gid, bathc,
-                        box_x, box_y, wrap_phase)
+                if what & DO_E:
+                    _e_rows(i, Ex, Ey, Hz, Px, Pxo, Py, Pyo, seg_x, seg_y, coef, prof_x, prof_y,
+                            psi_ex_y, psi_ey_x, curl, dsum, tally, bath_rows[i], gid, bathc,
+                            box_x, box_y, wrap_phase)

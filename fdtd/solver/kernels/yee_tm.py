@@ -21,7 +21,7 @@ from __future__ import annotations
 import numpy as np
 from numba import njit, prange
 
-from fdtd.solver.kernels.common import pml_slot, update_e_row
+from fdtd.solver.kernels.common import DO_E, DO_H, blocked_schedule, pml_slot, update_e_row
 from fdtd.solver.kernels.options import PARALLEL, SERIAL
 
 
@@ -147,28 +147,17 @@ def step_tm_blocked(Ez, Hx, Hy, Pz, Pzo, seg, coef, prof_x, prof_y, psi_hy_x, ps
                     psi_ez_y, nchunks, levels, tally, bath_rows, gid, bathc, box, wrap_phase):
     """Advance by ``levels`` steps in two sweeps, bit-identical to ``levels`` calls of
     :func:`step_tm` (the schedule of :func:`fdtd.solver.kernels.yee_te.step_te_blocked`)."""
-    nx, ny = Ez.shape
-    for k in prange(nchunks):
-        a = k * nx // nchunks
-        b = (k + 1) * nx // nchunks
-        curl = np.empty_like(Ez[0])
-        dsum = np.empty_like(Ez[0])
-        for r in range(a, b + levels - 1):
-            for s in range(1, levels + 1):
-                i = r - s + 1
-                if i >= a + s - 1 and i < b - s:
+    ops1, n1, ops2, n2 = blocked_schedule(Ez.shape[0], nchunks, levels)
+    for phase in range(2):
+        ops, n = (ops1, n1) if phase == 0 else (ops2, n2)
+        for k in prange(nchunks):
+            curl = np.empty_like(Ez[0])
+            dsum = np.empty_like(Ez[0])
+            for q in range(n[k]):
+                i = ops[k, q, 0]
+                what = ops[k, q, 1]
+                if what & DO_H:
                     _h_row(i, Ez, Hx, Hy, prof_x, prof_y, psi_hy_x, psi_hx_y, wrap_phase)
-                    if i >= a + s:
-                        _e_row(i, Ez, Hx, Hy, Pz, Pzo, seg, coef, prof_x, prof_y, psi_ez_x, psi_ez_y,
-                               curl, dsum, tally, bath_rows[i], gid, bathc, box, wrap_phase)
-    for k in prange(nchunks):
-        bnd = k * nx // nchunks
-        curl = np.empty_like(Ez[0])
-        dsum = np.empty_like(Ez[0])
-        for s in range(1, levels + 1):
-            for q in range(-s, s):
-                i = (bnd + q + nx) % nx
-                if q < s - 1:
-                    _h_row(i, Ez, Hx, Hy, prof_x, prof_y, psi_hy_x, psi_hx_y, wrap_phase)
-                _e_row(i, Ez, Hx, Hy, Pz, Pzo, seg, coef, prof_x, prof_y, psi_ez_x, psi_ez_y,
-                       curl, dsum, tally, bath_rows[i], gid, bathc, box, wrap_phase)
+                if what & DO_E:
+                    _e_row(i, Ez, Hx, Hy, Pz, Pzo, seg, coef, prof_x, prof_y, psi_ez_x, psi_ez_y,
+                           curl, dsum, tally, bath_rows[i], gid, bathc, box, wrap_phase)
