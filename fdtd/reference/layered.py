@@ -189,3 +189,78 @@ def lossless_stack(stack: Stack) -> Stack:
     return Stack(lossless_material(stack.bottom),
                  tuple((lossless_material(m), t) for m, t in stack.layers),
                  lossless_material(stack.top), stack.y0)
+
+
+def _bisect_sign_changes(g, a, b, n: int = 50) -> np.ndarray:
+    """Bisection of every bracket [a_i, b_i] at once (``g`` maps arrays to arrays).
+
+    A light-line crossing is an inverse-square-root point of a sheet's power
+    density, and a crossing misplaced by d moves an integral by ~sqrt(d): the
+    default 50 halvings take it to round-off."""
+    a, b = np.array(a, dtype=float), np.array(b, dtype=float)
+    if a.size == 0:
+        return a
+    ga = np.sign(g(a))
+    for _ in range(n):
+        c = 0.5 * (a + b)
+        same = np.sign(g(c)) == ga
+        a = np.where(same, c, a)
+        b = np.where(same, b, c)
+    return 0.5 * (a + b)
+
+
+def line_breakpoints(stack: Stack, omega_of, pols, h: float, lo: float, hi: float,
+                     n_scan: int = 6001) -> np.ndarray:
+    """Breakpoints of a sheet's power density along a line omega = omega_of(k), k in [lo, hi].
+
+    The line is a Doppler branch of a moving source (2D: k = k_x; 3D: k the
+    in-plane wavenumber along one direction of the (k_x, k_z) plane).  Returns
+    the sorted array of: the ends, every light-line crossing eps(omega) omega^2
+    = k^2 of every medium, and the guided-mode poles of the lossless stack seen
+    from height ``h`` in each polarization of ``pols`` ("te", "tm"), each
+    flanked by points at 1e-7, 1e-5 and 1e-3 of the span so that the adaptive
+    rule starts with panels that resolve the narrow peaks of a low-loss
+    stack.  ``omega_of`` maps an array of k to lab frequencies; points with
+    omega <= 0 are not searched."""
+    kk = np.linspace(lo, hi, n_scan)[1:-1]
+    w = omega_of(kk)
+    ok = w > 0
+    kk, w = kk[ok], w[ok]
+    pts = [lo, hi]
+    for m in stack.media:
+        def g(k, m=m):
+            ww = omega_of(k)
+            return np.real(permittivity(m, ww)) * ww * ww - k ** 2
+        val = np.real(permittivity(m, w)) * w * w - kk * kk
+        idx = np.nonzero(np.sign(val[1:]) * np.sign(val[:-1]) < 0)[0]
+        idx = idx[np.isfinite(val[idx]) & np.isfinite(val[idx + 1])]
+        pts.extend(_bisect_sign_changes(g, kk[idx], kk[idx + 1]).tolist())
+    # guided-mode poles of the lossless stack: zeros of D = Y_up - Y_down (purely
+    # imaginary where all waves at the source are evanescent)
+    lossless = lossless_stack(stack)
+    for pol in pols:
+        def D(k, pol=pol):
+            k = np.atleast_1d(np.asarray(k, dtype=float))
+            # the search steps onto poles of the admittances themselves: only signs matter
+            with np.errstate(divide="ignore", invalid="ignore"):
+                Yu, Yd, _ = admittances(lossless, pol, k, omega_of(k), h)
+            return Yu - Yd
+
+        Dv = D(kk)
+        reactive = np.abs(Dv.real) < 1e-9 * np.abs(Dv)
+        Di = np.where(reactive, Dv.imag, np.nan)
+        idx = np.nonzero(np.sign(Di[1:]) * np.sign(Di[:-1]) < 0)[0]
+        # a pole of the lossless stack only marks where the lossy density peaks (no
+        # singularity): 30 halvings, ~1e-13 of the span, are plenty
+        roots = _bisect_sign_changes(lambda k, D=D: D(k).imag, kk[idx], kk[idx + 1], n=30)
+        if roots.size:
+            # true zeros (|D| small), not jumps through infinity
+            true = np.abs(D(roots)) < 1e-6 * np.maximum(np.abs(Di[idx]), np.abs(Di[idx + 1]))
+            pts.extend(roots[true].tolist())
+    pts = np.unique(np.array(pts))
+    extra = []
+    span = hi - lo
+    for p in pts[1:-1]:
+        for dd in (1e-7, 1e-5, 1e-3):
+            extra.extend([p - dd * span, p + dd * span])
+    return np.unique(np.clip(np.concatenate([pts, extra]), lo, hi))

@@ -43,8 +43,8 @@ import numpy as np
 from fdtd import _checks
 from fdtd.errors import GeometryError, ParameterError
 from fdtd.media.materials import Material
-from fdtd.reference.layered import (Stack, admittances, ky_branch, lossless_material,
-                                    lossless_stack, permittivity)
+from fdtd.reference.layered import (Stack, admittances, ky_branch, line_breakpoints,
+                                    lossless_material, permittivity)
 from fdtd.reference.quadrature import adaptive_integral
 
 __all__ = ["Stack", "MovingLineSource", "sheet_power", "PlanarResult", "PlanarReference", "Bulk1D"]
@@ -308,71 +308,12 @@ class PlanarReference:
     def _breakpoints(self, branch: int) -> np.ndarray:
         """Light-line crossings and lossless guided-mode poles on one branch (cached)."""
         cache = self.__dict__.setdefault("_bp_cache", {})
-        if branch in cache:
-            return cache[branch]
-        lo, hi = self._k_range(branch)
-        kk = np.linspace(lo, hi, 6001)[1:-1]
-        w = self.omega_of(kk, branch)
-        ok = w > 0
-        kk, w = kk[ok], w[ok]
-        pts = [lo, hi]
-
-        def refine(g, a, b_, n=50):
-            """Bisection of every bracket [a_i, b_i] at once (g maps arrays to arrays), to
-            round-off: a light-line crossing is an inverse-square-root point of the density,
-            and a crossing misplaced by d moves the integral by ~sqrt(d)."""
-            a, b_ = np.array(a, dtype=float), np.array(b_, dtype=float)
-            if a.size == 0:
-                return a
-            ga = np.sign(g(a))
-            for _ in range(n):
-                c = 0.5 * (a + b_)
-                same = np.sign(g(c)) == ga
-                a = np.where(same, c, a)
-                b_ = np.where(same, b_, c)
-            return 0.5 * (a + b_)
-
-        for m in self.stack.media:
-            def g(k, m=m):
-                ww = self.omega_of(k, branch)
-                return np.real(permittivity(m, ww)) * ww * ww - k ** 2
-            e = np.real(permittivity(m, w))
-            val = e * w * w - kk * kk
-            idx = np.nonzero(np.sign(val[1:]) * np.sign(val[:-1]) < 0)[0]
-            idx = idx[np.isfinite(val[idx]) & np.isfinite(val[idx + 1])]
-            pts.extend(refine(g, kk[idx], kk[idx + 1]).tolist())
-        # guided-mode poles of the lossless stack: zeros of D = Y_up - Y_down (purely
-        # imaginary where all waves at the source are evanescent)
-        lossless = lossless_stack(self.stack)
-        pol, h = self.source.polarization, self.source.height
-
-        def D(k):
-            k = np.atleast_1d(np.asarray(k, dtype=float))
-            # the search steps onto poles of the admittances themselves: only signs matter
-            with np.errstate(divide="ignore", invalid="ignore"):
-                Yu, Yd, _ = admittances(lossless, pol, k, self.omega_of(k, branch), h)
-            return Yu - Yd
-
-        Dv = D(kk)
-        reactive = np.abs(Dv.real) < 1e-9 * np.abs(Dv)
-        Di = np.where(reactive, Dv.imag, np.nan)
-        idx = np.nonzero(np.sign(Di[1:]) * np.sign(Di[:-1]) < 0)[0]
-        # a guided-mode pole of the lossless stack only marks where the lossy density
-        # peaks (no singularity): 30 halvings, ~1e-13 of the span, are plenty
-        roots = refine(lambda k: D(k).imag, kk[idx], kk[idx + 1], n=30)
-        if roots.size:
-            # true zeros (|D| small), not jumps through infinity
-            true = np.abs(D(roots)) < 1e-6 * np.maximum(np.abs(Di[idx]), np.abs(Di[idx + 1]))
-            pts.extend(roots[true].tolist())
-        pts = np.unique(np.array(pts))
-        extra = []
-        span = hi - lo
-        for p in pts[1:-1]:
-            for dd in (1e-7, 1e-5, 1e-3):
-                extra.extend([p - dd * span, p + dd * span])
-        allp = np.unique(np.clip(np.concatenate([pts, extra]), lo, hi))
-        cache[branch] = allp
-        return allp
+        if branch not in cache:
+            lo, hi = self._k_range(branch)
+            cache[branch] = line_breakpoints(
+                self.stack, lambda k: self.omega_of(k, branch), (self.source.polarization,),
+                self.source.height, lo, hi)
+        return cache[branch]
 
     def _integrand(self, branch: int):
         s = self.source
