@@ -221,46 +221,72 @@ def line_breakpoints(stack: Stack, omega_of, pols, h: float, lo: float, hi: floa
     flanked by points at 1e-7, 1e-5 and 1e-3 of the span so that the adaptive
     rule starts with panels that resolve the narrow peaks of a low-loss
     stack.  ``omega_of`` maps an array of k to lab frequencies; points with
-    omega <= 0 are not searched."""
-    kk = np.linspace(lo, hi, n_scan)[1:-1]
-    w = omega_of(kk)
-    ok = w > 0
-    kk, w = kk[ok], w[ok]
-    pts = [lo, hi]
+    omega <= 0 are not searched.  The one-line case of :func:`lines_breakpoints`."""
+    return lines_breakpoints(stack, lambda k, g: omega_of(k), pols, h, [lo], [hi], n_scan)[0]
+
+
+def lines_breakpoints(stack: Stack, omega_of, pols, h: float, lo, hi,
+                      n_scan: int = 6001) -> list[np.ndarray]:
+    """:func:`line_breakpoints` of many lines at once.
+
+    Line g runs over k in [lo[g], hi[g]] with omega = omega_of(k, g) (``g`` an
+    integer array of the points' line indices); one scan of n_scan points per
+    line, all lines in one vectorised pass.  Returns one sorted array per line."""
+    lo = np.asarray(lo, dtype=float)
+    hi = np.asarray(hi, dtype=float)
+    G = lo.size
+    t = np.linspace(0.0, 1.0, n_scan)[1:-1]
+    kk = lo[:, None] + (hi - lo)[:, None] * t[None, :]          # (G, n)
+    gg = np.broadcast_to(np.arange(G)[:, None], kk.shape)
+    w = omega_of(kk.ravel(), gg.ravel()).reshape(kk.shape)
+    valid = w > 0
+    pts_k: list[np.ndarray] = [lo, hi]
+    pts_g: list[np.ndarray] = [np.arange(G), np.arange(G)]
+
+    def brackets(val):
+        """Indices (line, i) of sign changes between scan points i and i+1 of valid points."""
+        ch = (np.sign(val[:, 1:]) * np.sign(val[:, :-1]) < 0) & valid[:, 1:] & valid[:, :-1] \
+            & np.isfinite(val[:, 1:]) & np.isfinite(val[:, :-1])
+        return np.nonzero(ch)
+
+    wv = np.where(valid, w, 1.0)
     for m in stack.media:
-        def g(k, m=m):
-            ww = omega_of(k)
+        def g(k, line, m=m):
+            ww = omega_of(k, line)
             return np.real(permittivity(m, ww)) * ww * ww - k ** 2
-        val = np.real(permittivity(m, w)) * w * w - kk * kk
-        idx = np.nonzero(np.sign(val[1:]) * np.sign(val[:-1]) < 0)[0]
-        idx = idx[np.isfinite(val[idx]) & np.isfinite(val[idx + 1])]
-        pts.extend(_bisect_sign_changes(g, kk[idx], kk[idx + 1]).tolist())
+        val = np.real(permittivity(m, wv)) * wv * wv - kk * kk
+        r, i = brackets(val)
+        pts_k.append(_bisect_sign_changes(lambda k, r=r, g=g: g(k, r), kk[r, i], kk[r, i + 1]))
+        pts_g.append(r)
     # guided-mode poles of the lossless stack: zeros of D = Y_up - Y_down (purely
     # imaginary where all waves at the source are evanescent)
     lossless = lossless_stack(stack)
     for pol in pols:
-        def D(k, pol=pol):
+        def D(k, line, pol=pol):
             k = np.atleast_1d(np.asarray(k, dtype=float))
             # the search steps onto poles of the admittances themselves: only signs matter
             with np.errstate(divide="ignore", invalid="ignore"):
-                Yu, Yd, _ = admittances(lossless, pol, k, omega_of(k), h)
+                Yu, Yd, _ = admittances(lossless, pol, k, omega_of(k, line), h)
             return Yu - Yd
 
-        Dv = D(kk)
+        Dv = D(kk.ravel(), gg.ravel()).reshape(kk.shape)
         reactive = np.abs(Dv.real) < 1e-9 * np.abs(Dv)
         Di = np.where(reactive, Dv.imag, np.nan)
-        idx = np.nonzero(np.sign(Di[1:]) * np.sign(Di[:-1]) < 0)[0]
+        r, i = brackets(Di)
         # a pole of the lossless stack only marks where the lossy density peaks (no
         # singularity): 30 halvings, ~1e-13 of the span, are plenty
-        roots = _bisect_sign_changes(lambda k, D=D: D(k).imag, kk[idx], kk[idx + 1], n=30)
+        roots = _bisect_sign_changes(lambda k, r=r, D=D: D(k, r).imag, kk[r, i], kk[r, i + 1], n=30)
         if roots.size:
             # true zeros (|D| small), not jumps through infinity
-            true = np.abs(D(roots)) < 1e-6 * np.maximum(np.abs(Di[idx]), np.abs(Di[idx + 1]))
-            pts.extend(roots[true].tolist())
-    pts = np.unique(np.array(pts))
-    extra = []
-    span = hi - lo
-    for p in pts[1:-1]:
-        for dd in (1e-7, 1e-5, 1e-3):
-            extra.extend([p - dd * span, p + dd * span])
-    return np.unique(np.clip(np.concatenate([pts, extra]), lo, hi))
+            true = np.abs(D(roots, r)) < 1e-6 * np.maximum(np.abs(Di[r, i]), np.abs(Di[r, i + 1]))
+            pts_k.append(roots[true])
+            pts_g.append(r[true])
+    allk, allg = np.concatenate(pts_k), np.concatenate(pts_g)
+    out = []
+    for line in range(G):
+        pts = np.unique(allk[allg == line])
+        span = hi[line] - lo[line]
+        inner = pts[1:-1]
+        extra = [inner + s * dd * span for dd in (1e-7, 1e-5, 1e-3) for s in (-1.0, 1.0)]
+        out.append(np.unique(np.clip(np.concatenate([pts] + extra), lo[line], hi[line])))
+    return out

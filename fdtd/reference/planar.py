@@ -47,7 +47,7 @@ from fdtd.reference.layered import (Stack, admittances, ky_branch, line_breakpoi
                                     lossless_material, permittivity)
 from fdtd.reference.quadrature import adaptive_integral
 
-__all__ = ["Stack", "MovingLineSource", "sheet_power", "PlanarResult", "PlanarReference", "Bulk1D"]
+__all__ = ["Stack", "MovingLineSource", "sheet_power", "sheet_fluxes", "PlanarResult", "PlanarReference", "Bulk1D"]
 
 # --------------------------------------------------------------------- sources
 
@@ -134,6 +134,16 @@ def sheet_power(stack: Stack, source: MovingLineSource, k, omega):
     pol = source.polarization
     Yu, Yd, eps_h = admittances(stack, pol, k, omega, source.height)
     dE, dH = source.jumps(k, omega, eps_h)
+    return sheet_fluxes(pol, Yu, Yd, dE, dH)
+
+
+def sheet_fluxes(pol: str, Yu, Yd, dE, dH):
+    """(P_sheet, flux_up, flux_down) of a sheet with tangential-field jumps (dE, dH).
+
+    ``pol`` "te" ((E_t, H_t) = (E_x, H_z)) or "tm" ((E_z, H_x)); ``Yu``, ``Yd`` the
+    admittances at y = h+ and h- (:func:`~fdtd.reference.layered.admittances`);
+    the jumps [E_t] = E_t(h+) - E_t(h-), [H_t] likewise.  All broadcast to one
+    shape; 1/2 Re convention for complex amplitudes."""
     Ep = (dH - Yd * dE) / (Yu - Yd)
     Em = Ep - dE
     Hp, Hm = Yu * Ep, Yd * Em
